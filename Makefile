@@ -1,0 +1,46 @@
+# Everything a new machine needs is installed by these targets themselves:
+# OS packages (Meep and the scientific stack), the virtual environment and the
+# package. Run as root on Debian/Ubuntu, or as a user with sudo.
+SHELL := /bin/bash
+VENV := .venv
+PY := $(VENV)/bin/python
+OS_PYTHON := /usr/bin/python3
+OS_PACKAGES := python3-meep python3-numpy python3-scipy python3-h5py python3-matplotlib python3-venv python3-pip
+export MPLBACKEND := Agg
+
+.PHONY: setup os-packages demo test bench clean
+
+os-packages:
+	@if ! $(OS_PYTHON) -c "import meep, numpy, scipy, h5py, matplotlib, venv, ensurepip" >/dev/null 2>&1; then \
+	  echo "== installing OS packages: $(OS_PACKAGES)"; \
+	  SUDO=""; [ "$$(id -u)" = 0 ] || SUDO=sudo; \
+	  $$SUDO env DEBIAN_FRONTEND=noninteractive apt-get update -qq && \
+	  $$SUDO env DEBIAN_FRONTEND=noninteractive apt-get install -y -qq $(OS_PACKAGES) >/dev/null; \
+	fi
+	@$(OS_PYTHON) -c "import meep" >/dev/null 2>&1 || { echo "Meep could not be installed from the OS packages (python3-meep)"; exit 1; }
+
+# The venv sees the OS Meep, numpy, scipy, h5py and matplotlib; the constraints
+# file pins those to the OS versions so pip never replaces them (Meep's
+# compiled module breaks under another numpy).
+$(VENV)/.installed: pyproject.toml | os-packages
+	@echo "== making $(VENV) (with the OS site packages) and installing the package"
+	@[ -x $(PY) ] || $(OS_PYTHON) -m venv --system-site-packages $(VENV)
+	@$(OS_PYTHON) -c "import numpy, scipy, h5py, matplotlib as m; \
+	  print(f'numpy=={numpy.__version__}\nscipy=={scipy.__version__}\nh5py=={h5py.__version__}\nmatplotlib=={m.__version__}')" > $(VENV)/constraints.txt
+	@$(PY) -m pip install -q --disable-pip-version-check -c $(VENV)/constraints.txt -e ".[test]"
+	@$(PY) -c "import numpy, meep; assert numpy.__file__.startswith('/usr/lib/python3/'), numpy.__file__"
+	@touch $@
+
+setup: os-packages $(VENV)/.installed
+
+demo: setup
+	@$(PY) configs/demo.py
+
+test: setup
+	@$(PY) -m pytest -q -p no:cacheprovider
+
+bench: setup
+	@$(PY) bench/bench_runner.py
+
+clean:
+	rm -rf $(VENV) demo_output

@@ -1,0 +1,363 @@
+"""The case model: one pydantic class per table of the TOML case file.
+
+Each table of a case file maps onto one class below with the same key names,
+so the README's case reference, the file and the code say the same thing.
+Lengths are micrometres, wavelengths are vacuum wavelengths, the chip's
+attenuation coefficient ``alpha`` is in 1/cm (the unit of the trade).
+
+Validation of each table on its own happens here (types, signs, allowed
+values); checks that need the derived grid (points per wavelength, the
+emitter's clearance from the surface) happen in :mod:`fdtd_cases.layout`.
+Nothing deeper in the numerics re-checks input.
+"""
+
+import math
+import tomllib
+from pathlib import Path
+from typing import Annotated, Literal, Optional, Union
+
+import numpy as np
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+
+from .attenuation import per_um
+from .errors import CaseError
+
+ORIENTATIONS = ("parallel", "normal", "out-of-plane")
+"""Directions of the emitting current: along x, along y, along z."""
+
+Length = Annotated[float, Field(gt=0, allow_inf_nan=False)]
+
+
+class _Table(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True)
+
+
+class Light(_Table):
+    """``[light]``: the emission spectrum, sampled in vacuum wavelength.
+
+    Parameters
+    ----------
+    wavelength : float
+        Centre vacuum wavelength, µm.
+    band : float
+        Full width of the sampled band, µm; 0 means one wavelength.
+    samples : int
+        Number of wavelengths sampled evenly across the band (1 when ``band``
+        is 0; default 9 otherwise).
+    """
+
+    wavelength: Length
+    band: float = Field(0.0, ge=0, allow_inf_nan=False)
+    samples: Optional[Annotated[int, Field(ge=1, le=200)]] = None
+
+    @model_validator(mode="after")
+    def _band_fits(self):
+        if self.band >= self.wavelength:
+            raise ValueError("band must be smaller than the wavelength")
+        if self.band == 0 and self.samples not in (None, 1):
+            raise ValueError("samples must be 1 when band is 0 (one wavelength)")
+        if self.band > 0 and self.samples == 1:
+            raise ValueError("samples must be at least 2 when band is above 0")
+        return self
+
+    def wavelengths(self):
+        """Sampled vacuum wavelengths, µm, ascending."""
+        if self.band == 0:
+            return np.array([self.wavelength])
+        count = self.samples or 9
+        half = self.band / 2
+        return np.linspace(self.wavelength - half, self.wavelength + half, count)
+
+
+class Ambient(_Table):
+    """``[ambient]``: the lossless medium the light escapes into."""
+
+    index: float = Field(1.0, ge=1.0, le=10.0, allow_inf_nan=False)
+
+
+class Chip(_Table):
+    """``[chip]``: the emitting material below y = 0.
+
+    Parameters
+    ----------
+    index : float
+        Real refractive index.
+    alpha : float
+        Intensity attenuation coefficient, 1/cm.
+    thickness : float
+        µm from y = 0 down to the back side; ``inf`` for a half-space.
+    back : {"open", "mirror"}
+        ``open``: the chip material runs into the absorbing boundary (at
+        y = -thickness when that is finite). ``mirror``: a perfect reflector
+        at y = -thickness.
+    """
+
+    index: float = Field(ge=1.0, le=10.0, allow_inf_nan=False)
+    alpha: float = Field(0.0, ge=0, allow_inf_nan=False)
+    thickness: float = Field(math.inf, gt=0)
+    back: Literal["open", "mirror"] = "open"
+
+    @field_validator("thickness")
+    def _no_nan(cls, value):
+        if math.isnan(value):
+            raise ValueError("thickness must be a positive length in µm or inf")
+        return value
+
+    @model_validator(mode="after")
+    def _mirror_needs_thickness(self):
+        if self.back == "mirror" and math.isinf(self.thickness):
+            raise ValueError("back = \"mirror\" needs a finite thickness")
+        return self
+
+    @property
+    def alpha_per_um(self):
+        """Intensity attenuation coefficient in 1/µm (1/cm times 1e-4)."""
+        return per_um(self.alpha)
+
+
+class Flat(_Table):
+    """``pattern = "flat"``: no pattern; the surface is y = 0."""
+
+    pattern: Literal["flat"]
+
+
+class Grating(_Table):
+    """``pattern = "grating"``: rectangular ridges of width ``fill * period``
+    centred on x = 0 and every period, grooves ``height`` deep."""
+
+    pattern: Literal["grating"]
+    period: Length
+    height: Length
+    fill: float = Field(0.5, gt=0, lt=1)
+
+
+class Triangle(_Table):
+    """``pattern = "triangle"``: symmetric V-grooves, an apex at x = 0 and
+    every period, valleys ``height`` deep."""
+
+    pattern: Literal["triangle"]
+    period: Length
+    height: Length
+
+
+class Sine(_Table):
+    """``pattern = "sine"``: y = -height/2 (1 - cos(2 pi x / period))."""
+
+    pattern: Literal["sine"]
+    period: Length
+    height: Length
+
+
+class Random(_Table):
+    """``pattern = "random"``: a Gaussian-correlated random profile.
+
+    Parameters
+    ----------
+    rms : float
+        Root-mean-square height, µm.
+    correlation : float
+        Correlation length, µm: the autocorrelation of the profile is
+        exp(-(dx/correlation)^2).
+    seed : int
+        Seed of the random generator; the same seed gives the same profile.
+    """
+
+    pattern: Literal["random"]
+    rms: Length
+    correlation: Length
+    seed: int = Field(0, ge=0)
+
+
+class Profile(_Table):
+    """``pattern = "profile"``: a user polyline ``points = [[x, y], ...]``
+    with x increasing and y <= 0; flat beyond its ends."""
+
+    pattern: Literal["profile"]
+    points: list[Annotated[list[float], Field(min_length=2, max_length=2)]] = Field(min_length=2)
+
+    @field_validator("points")
+    def _polyline(cls, points):
+        xs = [p[0] for p in points]
+        ys = [p[1] for p in points]
+        if not all(math.isfinite(v) for v in xs + ys):
+            raise ValueError("points must be finite numbers")
+        if any(b <= a for a, b in zip(xs, xs[1:])):
+            raise ValueError("the x values of points must increase strictly")
+        if max(ys) > 0:
+            raise ValueError("the y values of points must be <= 0 (the chip top is y = 0)")
+        return points
+
+
+Surface = Annotated[Union[Flat, Grating, Triangle, Sine, Random, Profile], Field(discriminator="pattern")]
+
+
+class Emitter(_Table):
+    """``[emitter]``: the buried line emitter(s).
+
+    Parameters
+    ----------
+    depth : float
+        µm below y = 0; must lie below the deepest point of the pattern.
+    x : list of float
+        Lateral positions, µm; one job each (a single number is accepted).
+    orientation : {"parallel", "normal", "out-of-plane", "isotropic"}
+        Direction of the emitting current; ``isotropic`` is all three.
+    contour : float, optional
+        Half-width of the square flux contour around the emitter, µm.
+    """
+
+    depth: Length
+    x: list[Annotated[float, Field(allow_inf_nan=False)]] = Field(default=[0.0], min_length=1)
+    orientation: Literal["parallel", "normal", "out-of-plane", "isotropic"] = "isotropic"
+    contour: Optional[Length] = None
+
+    @field_validator("x", mode="before")
+    def _single_number(cls, value):
+        if isinstance(value, (int, float)) and not isinstance(value, bool):
+            return [float(value)]
+        return value
+
+    def orientations(self):
+        """The job orientations this emitter stands for."""
+        return ORIENTATIONS if self.orientation == "isotropic" else (self.orientation,)
+
+
+class Grid(_Table):
+    """``[grid]``: discretisation and the simulated domain.
+
+    Parameters
+    ----------
+    resolution : float, optional
+        Grid points per µm. When absent it is derived from
+        ``points_per_wavelength`` in the highest-index material at the
+        shortest sampled wavelength.
+    points_per_wavelength : float
+        Used only when ``resolution`` is absent (default 16).
+    pml : float, optional
+        Thickness of the absorbing layers (PML), µm; default: the longest
+        sampled vacuum wavelength.
+    width : float, optional
+        Lateral size of the domain inside the absorbing layers, µm; default:
+        8 longest wavelengths, and at least 4 pattern periods.
+    decay : float
+        Stop rule: the run ends when the DFT fields change by less than this
+        fraction over one period of the highest sampled frequency.
+    """
+
+    resolution: Optional[Length] = None
+    points_per_wavelength: Length = 16.0
+    pml: Optional[Length] = None
+    width: Optional[Length] = None
+    decay: float = Field(1e-8, gt=0, lt=0.1)
+
+
+class Case(_Table):
+    """A whole case file."""
+
+    light: Light
+    ambient: Ambient = Ambient()
+    chip: Chip
+    surface: Surface = Flat(pattern="flat")
+    emitter: Emitter
+    grid: Grid = Grid()
+
+
+def _table_class(loc):
+    """The model class that owns the key at ``loc`` (for listing allowed keys)."""
+    cls = Case
+    for part in loc[:-1]:
+        field = cls.model_fields.get(part) if isinstance(part, str) else None
+        if field is None:
+            return None
+        annotation = field.annotation
+        if isinstance(annotation, type) and issubclass(annotation, BaseModel):
+            cls = annotation
+        else:
+            return None
+    return cls
+
+
+def _describe(error, surface_pattern):
+    """Turn one pydantic error into (key path, message)."""
+    loc = [part for part in error["loc"]]
+    # Drop the tag pydantic inserts for the surface union, e.g. ("surface", "grating", "period").
+    if len(loc) >= 2 and loc[0] == "surface" and loc[1] in ("flat", "grating", "triangle", "sine", "random", "profile"):
+        loc = [loc[0]] + loc[2:]
+    key = ""
+    for part in loc:
+        key += f"[{part}]" if isinstance(part, int) else (f".{part}" if key else str(part))
+    kind = error["type"]
+    if kind == "extra_forbidden":
+        if loc[0] == "surface" and surface_pattern:
+            cls = {"flat": Flat, "grating": Grating, "triangle": Triangle, "sine": Sine,
+                   "random": Random, "profile": Profile}[surface_pattern]
+        else:
+            cls = _table_class(loc)
+        allowed = ", ".join(cls.model_fields) if cls is not None else ""
+        return key, f"unknown key; allowed here: {allowed}" if allowed else "unknown key"
+    if kind == "missing":
+        return key, "required key is missing"
+    if kind == "union_tag_invalid" or kind == "union_tag_not_found":
+        return "surface.pattern", ('must be one of "flat", "grating", "triangle", "sine", '
+                                   '"random", "profile"')
+    message = error["msg"]
+    if message.startswith("Value error, "):
+        message = message[len("Value error, "):]
+    if kind.endswith("_type"):
+        message = f"{message} (got {type(error.get('input')).__name__} {error.get('input')!r})"
+    return key, message
+
+
+def parse_case(data, source="case"):
+    """Validate a dict read from TOML into a :class:`Case`.
+
+    Raises
+    ------
+    CaseError
+        Naming the source, the key and what is allowed. All problems found are
+        listed, one per line.
+    """
+    try:
+        return Case.model_validate(data)
+    except ValidationError as exc:
+        pattern = None
+        if isinstance(data.get("surface"), dict):
+            pattern = data["surface"].get("pattern")
+        lines = [_describe(error, pattern) for error in exc.errors()]
+        key, message = lines[0]
+        if len(lines) > 1:
+            rest = "\n".join(f"  {source}: {k}: {m}" for k, m in lines[1:])
+            message = f"{message}\n{rest}"
+        raise CaseError(source, key, message) from None
+
+
+def load_case(path):
+    """Read and validate a TOML case file.
+
+    Returns
+    -------
+    case : Case
+    text : str
+        The file's text, kept with the results.
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise CaseError(path, "", "no such file") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise CaseError(path, "", f"cannot be read ({exc})") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise CaseError(path, "", f"is not valid TOML: {exc}") from None
+    return parse_case(data, source=path), text
+
+
+def resolved_dict(case):
+    """The case with every default filled in, as plain TOML-ready data.
+
+    Infinite thickness is kept as the float ``inf`` (valid TOML); absent
+    optional values are left out.
+    """
+    return case.model_dump(exclude_none=True)

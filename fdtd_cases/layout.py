@@ -1,0 +1,263 @@
+"""The simulated domain derived from a case: grid, cell, monitors, checks.
+
+Everything here is plain numpy: ``outcouple check`` uses it without running
+Meep, and the Meep builder reads every position from it, so the preview, the
+estimate and the simulation agree. All monitor lines lie on grid lines (the
+cell is centred on x = 0 with an even number of cells across, and every
+length is a whole number of cells), so saved Yee-grid fields sit at known
+positions.
+
+Vertical layout, top to bottom::
+
+    PML (ambient)
+    ambient gap                  (AMBIENT_GAP wavelengths above y = 0)
+    top monitor   y_top          (TOP_GAP wavelengths above y = 0)
+    surface, highest point y = 0
+    chip, emitter at y = -depth inside its square flux contour
+    bottom monitor y_bottom
+    PML (chip material, open back)  or  perfect mirror at y = -thickness
+
+Side monitors run from y_bottom to y_top at x = -width/2 and x = +width/2.
+"""
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import geometry
+from .errors import CaseError
+
+TOP_GAP = 0.6
+"""Top monitor height above y = 0, in longest vacuum wavelengths."""
+AMBIENT_GAP = 1.0
+"""Ambient above y = 0 before the absorbing layer, in longest vacuum wavelengths."""
+MIN_PPW_ERROR = 8
+MIN_PPW_WARN = 12
+COURANT = 0.5
+"""Meep's default Courant factor: time step = COURANT / resolution."""
+UPDATES_PER_SECOND = 9e7
+"""Serial Meep 2-D grid-point updates per second measured on the development machine."""
+BYTES_PER_POINT = 120
+"""Memory per grid point of a 2-D Meep run with PML, measured (peak RSS / points)."""
+EXTRA_BYTES = 150e6
+"""Memory of a Meep process before the grid (Python, libraries)."""
+
+
+@dataclass(frozen=True)
+class Layout:
+    """Derived, grid-aligned description of one case's simulation domain.
+
+    All lengths in µm; ``resolution`` in points per µm.
+    """
+
+    resolution: float
+    wavelengths: np.ndarray
+    width: float
+    pml: float
+    cell_x: float
+    cell_y: float
+    y_center: float
+    y_top: float
+    y_bottom: float
+    x_side: float
+    contour: float
+    depth: float
+    pattern_bottom: float
+    polyline: np.ndarray = field(repr=False)
+    chip_polygon: np.ndarray = field(repr=False)
+    mirror_y: float | None
+    bottom_pml: bool
+    symmetric: bool
+    points_per_wavelength: dict
+    fcen: float
+    fwidth: float
+    warnings: tuple = ()
+
+    @property
+    def cell(self):
+        """(x, y) size of the simulation cell, µm."""
+        return self.cell_x, self.cell_y
+
+    @property
+    def grid_points(self):
+        return int(round(self.cell_x * self.resolution) * round(self.cell_y * self.resolution))
+
+    @property
+    def y_cell_bottom(self):
+        return self.y_center - self.cell_y / 2
+
+    @property
+    def y_cell_top(self):
+        return self.y_center + self.cell_y / 2
+
+    def contour_box(self, x0):
+        """(x_left, x_right, y_low, y_high) of the flux contour around an emitter at x0."""
+        return (snap_down(x0 - self.contour, self.resolution), snap_up(x0 + self.contour, self.resolution),
+                snap_down(-self.depth - self.contour, self.resolution), snap_up(-self.depth + self.contour, self.resolution))
+
+    def estimate(self, chip_index):
+        """Rough run-time and memory estimate for one job.
+
+        The run lasts the pulse (10 / fwidth in Meep time, two cutoffs of
+        five widths) plus about two crossings of the cell at the speed of
+        light in the chip; the rates are the measured constants above.
+        """
+        run_time = 10.0 / self.fwidth + 2 * chip_index * (self.cell_x / 2 + self.cell_y)
+        steps = int(run_time * self.resolution / COURANT)
+        updates = steps * self.grid_points
+        return {
+            "time_steps": steps,
+            "seconds": updates / UPDATES_PER_SECOND,
+            "memory_bytes": EXTRA_BYTES + BYTES_PER_POINT * self.grid_points,
+        }
+
+
+def snap(value, resolution):
+    """Nearest grid line to ``value``."""
+    return round(value * resolution) / resolution
+
+
+def snap_up(value, resolution):
+    return math.ceil(value * resolution - 1e-9) / resolution
+
+
+def snap_down(value, resolution):
+    return math.floor(value * resolution + 1e-9) / resolution
+
+
+def _resolution(case, wavelengths, source, warnings):
+    grid = case.grid
+    n_max = max(case.chip.index, case.ambient.index)
+    lam_min = wavelengths.min()
+    if grid.resolution is not None:
+        resolution, key = grid.resolution, "grid.resolution"
+    else:
+        resolution, key = math.ceil(grid.points_per_wavelength * n_max / lam_min), "grid.points_per_wavelength"
+    ppw = {name: lam_min * resolution / n for name, n in (("chip", case.chip.index), ("ambient", case.ambient.index))}
+    worst = min(ppw.values())
+    if worst < MIN_PPW_ERROR:
+        raise CaseError(source, key, f"gives {worst:.1f} points per wavelength in the chip at "
+                        f"{lam_min:g} µm; at least {MIN_PPW_ERROR} are needed (16 or more for about 1% accuracy)")
+    if worst < MIN_PPW_WARN:
+        warnings.append((key, f"gives only {worst:.1f} points per wavelength in the chip; "
+                              f"below {MIN_PPW_WARN} expect errors of several percent"))
+    return resolution, ppw
+
+
+def _period(surface):
+    return getattr(surface, "period", None) or getattr(surface, "correlation", 0.0)
+
+
+def make_layout(case, source="case"):
+    """Derive the grid-aligned domain of ``case`` and check what needs the grid.
+
+    Raises
+    ------
+    CaseError
+        For an emitter above or too close to the pattern or the back side,
+        too few points per wavelength, too thin absorbing layers, or emitter
+        positions outside the domain.
+    """
+    warnings = []
+    wavelengths = case.light.wavelengths()
+    lam_max = float(wavelengths.max())
+    resolution, ppw = _resolution(case, wavelengths, source, warnings)
+    cell = 1.0 / resolution
+    n_chip = case.chip.index
+
+    pml = case.grid.pml if case.grid.pml is not None else lam_max
+    if pml < 0.5 * lam_max:
+        raise CaseError(source, "grid.pml", f"is {pml:g} µm; absorbing layers must be at least half the "
+                        f"longest wavelength ({0.5 * lam_max:g} µm) thick")
+    pml = snap_up(pml, resolution)
+
+    xs = case.emitter.x
+    if case.grid.width is not None:
+        width = case.grid.width
+    else:
+        width = max(8 * lam_max, 4 * _period(case.surface)) + 2 * max(abs(x) for x in xs)
+    half = snap_up(width / 2, resolution)
+    width = 2 * half
+    cell_x = width + 2 * pml
+
+    polyline = geometry.surface_polyline(case.surface, -cell_x / 2 - cell, cell_x / 2 + cell)
+    pattern_bottom = geometry.deepest_point(polyline)
+    depth = case.emitter.depth
+    if -depth >= pattern_bottom:
+        raise CaseError(source, "emitter.depth", f"is {depth:g} µm, but the emitter must lie below the deepest "
+                        f"point of the pattern ({-pattern_bottom:g} µm below y = 0)")
+    clearance = depth + pattern_bottom
+    if math.isfinite(case.chip.thickness):
+        if depth >= case.chip.thickness:
+            raise CaseError(source, "emitter.depth", f"is {depth:g} µm, not inside the chip "
+                            f"(chip.thickness = {case.chip.thickness:g} µm)")
+        clearance = min(clearance, case.chip.thickness - depth)
+
+    # The contour must sit in homogeneous chip material with two cells to spare.
+    if case.emitter.contour is not None:
+        contour, key = case.emitter.contour, "emitter.contour"
+    else:
+        contour = max(3 * cell, min(lam_max / (4 * n_chip), clearance / 2))
+        key = "emitter.depth"
+    if contour < 2 * cell:
+        raise CaseError(source, "emitter.contour", f"is {contour:g} µm; it must span at least two grid cells "
+                        f"({2 * cell:.4g} µm at this resolution)")
+    if contour + 2 * cell > clearance:
+        raise CaseError(source, key, f"leaves the emitter {clearance:.4g} µm from the nearest interface, too "
+                        f"close for its flux contour of half-width {contour:.4g} µm plus two grid cells "
+                        f"({contour + 2 * cell:.4g} µm); move the emitter deeper or refine the grid")
+    for i, x in enumerate(xs):
+        if abs(x) + contour + 2 * cell > half:
+            raise CaseError(source, f"emitter.x[{i}]", f"is {x:g} µm, outside the domain: |x| must be at most "
+                            f"{half - contour - 2 * cell:.4g} µm (grid.width = {width:g} µm)")
+
+    y_top = snap_up(max(TOP_GAP * lam_max, 2 * cell), resolution)
+    y_cell_top = snap_up(AMBIENT_GAP * lam_max, resolution) + pml
+    if math.isfinite(case.chip.thickness) and case.chip.back == "mirror":
+        mirror_y = snap(-case.chip.thickness, resolution)
+        y_bottom = mirror_y + cell
+        y_cell_bottom = mirror_y - 2 * cell
+        bottom_pml = False
+    else:
+        mirror_y = None
+        if math.isfinite(case.chip.thickness):
+            y_bottom = snap(-case.chip.thickness, resolution)
+        else:
+            below = max(lam_max / (4 * n_chip), 3 * cell)
+            y_bottom = snap_down(-depth - contour - below, resolution)
+        y_cell_bottom = y_bottom - 2 * cell - pml
+        bottom_pml = True
+    # An odd number of cells in y would put the cell centre between grid lines.
+    if round((y_cell_top - y_cell_bottom) * resolution) % 2:
+        y_cell_bottom -= cell
+    cell_y = y_cell_top - y_cell_bottom
+    y_center = (y_cell_top + y_cell_bottom) / 2
+    symmetric = geometry.is_mirror_symmetric(case.surface, polyline)
+
+    feature = _smallest_feature(case.surface)
+    if feature is not None and feature < 2 * cell:
+        warnings.append(("surface", f"its smallest feature ({feature:.3g} µm) spans fewer than two grid cells "
+                                    f"({2 * cell:.3g} µm); refine the grid"))
+
+    f = 1.0 / wavelengths
+    fcen = float((f.max() + f.min()) / 2)
+    fwidth = float(max(2 * (f.max() - f.min()), 0.5 * fcen))
+    return Layout(
+        resolution=resolution, wavelengths=wavelengths, width=width, pml=pml, cell_x=cell_x,
+        cell_y=cell_y, y_center=y_center, y_top=y_top, y_bottom=y_bottom, x_side=half,
+        contour=contour, depth=depth, pattern_bottom=pattern_bottom, polyline=polyline,
+        chip_polygon=geometry.chip_polygon(polyline, y_cell_bottom - 1.0 if mirror_y is None else mirror_y),
+        mirror_y=mirror_y, bottom_pml=bottom_pml, symmetric=symmetric, points_per_wavelength=ppw,
+        fcen=fcen, fwidth=fwidth, warnings=tuple(warnings),
+    )
+
+
+def _smallest_feature(surface):
+    if surface.pattern == "grating":
+        return min(surface.fill, 1 - surface.fill) * surface.period
+    if surface.pattern in ("triangle", "sine"):
+        return surface.period / 2
+    if surface.pattern == "random":
+        return surface.correlation
+    return None

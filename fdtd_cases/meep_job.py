@@ -1,0 +1,132 @@
+"""Build and run one Meep simulation for one (orientation, position) job.
+
+This is the only module of the package that imports Meep. It reads every
+position from a :class:`fdtd_cases.layout.Layout` and returns plain numpy
+arrays: the DFT tangential fields on the monitor lines (on Meep's Yee grid),
+Meep's own flux through the same lines (kept for cross-checks only), the
+Fourier transform of the source current, and run facts.
+"""
+
+import time
+
+import meep as mp
+import numpy as np
+
+from .attenuation import d_conductivity
+
+COMPONENTS = {
+    # orientation: (source component, saved components)
+    "parallel": (mp.Ex, ("ex", "ey", "hz")),
+    "normal": (mp.Ey, ("ex", "ey", "hz")),
+    "out-of-plane": (mp.Ez, ("ez", "hx", "hy")),
+}
+_MEEP_COMPONENT = {"ex": mp.Ex, "ey": mp.Ey, "ez": mp.Ez, "hx": mp.Hx, "hy": mp.Hy, "hz": mp.Hz}
+
+MAX_RUN_CROSSINGS = 60
+"""Safety stop: at most this many light crossings of the cell (in chip material) after the pulse."""
+
+
+def monitor_lines(layout, x0):
+    """Monitor lines of a job: name -> (start, end, outward normal).
+
+    Each line lies on grid lines; ``normal`` is one of "+x", "-x", "+y", "-y"
+    and points out of the region the line encloses (the domain, or the
+    emitter's contour).
+    """
+    xs, yt, yb = layout.x_side, layout.y_top, layout.y_bottom
+    xl, xr, yl, yh = layout.contour_box(x0)
+    return {
+        "top": ((-xs, yt), (xs, yt), "+y"),
+        "bottom": ((-xs, yb), (xs, yb), "-y"),
+        "left": ((-xs, yb), (-xs, yt), "-x"),
+        "right": ((xs, yb), (xs, yt), "+x"),
+        "contour_top": ((xl, yh), (xr, yh), "+y"),
+        "contour_bottom": ((xl, yl), (xr, yl), "-y"),
+        "contour_left": ((xl, yl), (xl, yh), "-x"),
+        "contour_right": ((xr, yl), (xr, yh), "+x"),
+    }
+
+
+def build_simulation(case, layout, orientation, x0, symmetric):
+    """A ready-to-run ``mp.Simulation`` of one job (no monitors yet)."""
+    chip = mp.Medium(index=case.chip.index,
+                     D_conductivity=d_conductivity(case.chip.alpha_per_um, case.chip.index))
+    geometry = [mp.Prism(vertices=[mp.Vector3(x, y) for x, y in layout.chip_polygon],
+                         height=mp.inf, material=chip)]
+    if layout.mirror_y is not None:
+        depth = layout.mirror_y - layout.y_cell_bottom
+        geometry.append(mp.Block(center=mp.Vector3(0, layout.mirror_y - depth / 2 - 0.5),
+                                 size=mp.Vector3(mp.inf, depth + 1.0), material=mp.metal))
+        boundary = [mp.PML(layout.pml, direction=mp.X), mp.PML(layout.pml, direction=mp.Y, side=mp.High)]
+    else:
+        boundary = [mp.PML(layout.pml)]
+    component = COMPONENTS[orientation][0]
+    sources = [mp.Source(mp.GaussianSource(layout.fcen, fwidth=layout.fwidth), component=component,
+                         center=mp.Vector3(x0, -layout.depth))]
+    symmetries = []
+    if symmetric:
+        symmetries = [mp.Mirror(mp.X, phase=-1 if component == mp.Ex else 1)]
+    return mp.Simulation(
+        cell_size=mp.Vector3(layout.cell_x, layout.cell_y),
+        geometry_center=mp.Vector3(0, layout.y_center),
+        resolution=layout.resolution,
+        boundary_layers=boundary,
+        geometry=geometry,
+        default_material=mp.Medium(index=case.ambient.index),
+        sources=sources,
+        symmetries=symmetries,
+    )
+
+
+def _region(start, end):
+    (x1, y1), (x2, y2) = start, end
+    return mp.Vector3((x1 + x2) / 2, (y1 + y2) / 2), mp.Vector3(x2 - x1, y2 - y1)
+
+
+def run_job(case, layout, orientation, x0, symmetric):
+    """Run one job and return its raw results.
+
+    Returns
+    -------
+    dict
+        ``lines``: name -> {start, end, normal, fields: {component: complex
+        array (n_wavelengths, n_points)}}; ``meep_flux``: name -> outward flux
+        per wavelength from Meep's own monitors; ``source_current``: complex
+        Fourier transform of the source current per wavelength (Meep's
+        ``ldos_Jdata``); ``time_steps``, ``meep_time``, ``wall_time`` (s),
+        ``grid_points``, ``stopped_by_decay`` (False when the safety limit
+        ended the run).
+    """
+    mp.verbosity(0)
+    started = time.perf_counter()
+    sim = build_simulation(case, layout, orientation, x0, symmetric)
+    freqs = list(1.0 / layout.wavelengths)
+    saved = COMPONENTS[orientation][1]
+    lines = monitor_lines(layout, x0)
+    dft, flux = {}, {}
+    for name, (start, end, normal) in lines.items():
+        center, size = _region(start, end)
+        dft[name] = sim.add_dft_fields([_MEEP_COMPONENT[c] for c in saved], freqs, center=center, size=size,
+                                       yee_grid=True)
+        weight = -1.0 if normal.startswith("-") else 1.0
+        flux[name] = sim.add_flux(freqs, mp.FluxRegion(center=center, size=size, weight=weight))
+    crossing = case.chip.index * (layout.cell_x + layout.cell_y)
+    limit = 10.0 / layout.fwidth + MAX_RUN_CROSSINGS * crossing
+    sim.run(mp.dft_ldos(freqs), until_after_sources=mp.stop_when_dft_decayed(
+        tol=case.grid.decay, minimum_run_time=crossing, maximum_run_time=limit))
+    out_lines = {}
+    for name, (start, end, normal) in lines.items():
+        fields = {c: np.array([sim.get_dft_array(dft[name], _MEEP_COMPONENT[c], i) for i in range(len(freqs))])
+                  for c in saved}
+        out_lines[name] = {"start": start, "end": end, "normal": normal, "fields": fields}
+    result = {
+        "lines": out_lines,
+        "meep_flux": {name: np.array(mp.get_fluxes(obj)) for name, obj in flux.items()},
+        "source_current": np.array(sim.ldos_Jdata, dtype=complex),
+        "time_steps": int(sim.fields.t),
+        "meep_time": float(sim.meep_time()),
+        "grid_points": int(layout.grid_points),
+        "stopped_by_decay": bool(sim.meep_time() < limit),
+    }
+    result["wall_time"] = time.perf_counter() - started
+    return result
