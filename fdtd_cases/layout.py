@@ -198,7 +198,7 @@ def make_layout(case, source="case"):
     if case.emitter.contour is not None:
         contour, key = case.emitter.contour, "emitter.contour"
     else:
-        contour = max(3 * cell, min(lam_max / (4 * n_chip), clearance / 2))
+        contour = max(3 * cell, min(lam_max / (2 * n_chip), clearance / 2))
         key = "emitter.depth"
     if contour < 2 * cell:
         raise CaseError(source, "emitter.contour", f"is {contour:g} µm; it must span at least two grid cells "

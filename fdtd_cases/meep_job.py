@@ -127,6 +127,7 @@ def run_job(case, layout, orientation, x0, symmetric):
         "meep_time": float(sim.meep_time()),
         "grid_points": int(layout.grid_points),
         "stopped_by_decay": bool(sim.meep_time() < limit),
+        "meep_version": mp.__version__,
     }
     result["wall_time"] = time.perf_counter() - started
     return result

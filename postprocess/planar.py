@@ -87,11 +87,17 @@ def pattern(orientation, theta):
     raise ValueError(f"unknown orientation {orientation!r}")
 
 
-def _reflection(orientation, n_chip, n_ambient, theta):
+def _reflection(orientation, n_chip, n_ambient, theta, ideal_cone=False):
+    """(rho, T): the reflection seen by the emitter's own polarisation, and the transmission."""
     r_s, r_p, T_s, T_p = fresnel(n_chip, n_ambient, theta)
     if orientation == "out-of-plane":
-        return r_s, T_s
-    return (-r_p if orientation == "parallel" else r_p), T_p
+        rho, T = r_s, T_s
+    else:
+        rho, T = (-r_p if orientation == "parallel" else r_p), T_p
+    if ideal_cone:
+        inside = np.sin(theta) < n_ambient / n_chip
+        rho, T = np.where(inside, 0.0, rho), np.where(inside, 1.0, T)
+    return rho, T
 
 
 def _quad(f, a, b):
@@ -101,7 +107,7 @@ def _quad(f, a, b):
     return value
 
 
-def half_space(n_chip, n_ambient, depth, wavelength, orientation):
+def half_space(n_chip, n_ambient, depth, wavelength, orientation, ideal_cone=False):
     """Exact budget of a line emitter below a flat chip surface, open back.
 
     Parameters
@@ -113,6 +119,10 @@ def half_space(n_chip, n_ambient, depth, wavelength, orientation):
     wavelength : float
         Vacuum wavelength, µm.
     orientation : {"parallel", "normal", "out-of-plane"}
+    ideal_cone : bool
+        Replace the interface inside the escape cone by a perfect transmitter
+        (T = 1, r = 0; total internal reflection outside is kept): the case
+        "without Fresnel losses" of the escape-cone closed forms.
 
     Returns
     -------
@@ -126,7 +136,7 @@ def half_space(n_chip, n_ambient, depth, wavelength, orientation):
     half_pi = np.pi / 2
 
     def rho(theta):
-        return _reflection(orientation, n_chip, n_ambient, theta)
+        return _reflection(orientation, n_chip, n_ambient, theta, ideal_cone)
 
     def phase(theta):
         return np.exp(2j * k1 * depth * np.cos(theta))

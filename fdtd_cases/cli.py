@@ -1,0 +1,171 @@
+"""``outcouple``: the command line. It only parses, dispatches and prints.
+
+    outcouple check CASE
+    outcouple run CASE [-o FILE.h5] [--json] [--workers N] [--quiet]
+    outcouple show FILE.h5 [--json]
+
+Bad input: one message naming the file and key on standard error, exit
+code 2, no traceback, no result file.
+"""
+
+import argparse
+import json
+import os
+import sys
+import time
+from pathlib import Path
+
+import tomli_w
+
+from . import __version__
+from .case import load_case, resolved_dict
+from .errors import CaseError
+from .layout import make_layout
+from .runner import plan_jobs, run_jobs
+
+EXIT_INPUT = 2
+
+
+def _load(path):
+    case, text = load_case(path)
+    layout = make_layout(case, source=path)
+    for key, message in layout.warnings:
+        print(f"warning: {path}: {key}: {message}", file=sys.stderr)
+    return case, text, layout
+
+
+def _human_bytes(n):
+    return f"{n / 2**20:.0f} MiB" if n < 2**30 else f"{n / 2**30:.1f} GiB"
+
+
+def cmd_check(args):
+    case, _, layout = _load(args.case)
+    jobs = plan_jobs(case, layout)
+    est = layout.estimate(case.chip.index)
+    workers = max(1, min(os.cpu_count() or 1, len(jobs)))
+    ppw = layout.points_per_wavelength
+    lam = layout.wavelengths
+    print(f"{args.case}: valid")
+    print(f"  wavelengths        {len(lam)} from {lam.min():.4g} to {lam.max():.4g} um")
+    print(f"  resolution         {layout.resolution:g} points/um (grid step {1000 / layout.resolution:.2f} nm)")
+    print(f"  points/wavelength  chip {ppw['chip']:.1f}, ambient {ppw['ambient']:.1f} (at the shortest wavelength)")
+    print(f"  cell               {layout.cell_x:.3f} x {layout.cell_y:.3f} um including PML {layout.pml:.3f} um"
+          f" = {layout.grid_points:,} grid points")
+    print(f"  monitors           top y = {layout.y_top:.3f} um, bottom y = {layout.y_bottom:.3f} um, "
+          f"sides x = +/-{layout.x_side:.3f} um, emitter contour half-width {layout.contour:.3f} um")
+    print(f"  jobs               {len(jobs)} ({', '.join(case.emitter.orientations())} x {len(case.emitter.x)} "
+          f"position(s)); mirror symmetry: {'yes (x = 0 jobs)' if layout.symmetric else 'no'}")
+    print(f"  estimate per job   about {est['time_steps']:,} time steps, {est['seconds']:.0f} s "
+          f"(without symmetry), {_human_bytes(est['memory_bytes'])}")
+    total = est["seconds"] * len(jobs) / workers
+    print(f"  estimate in all    about {total:.0f} s on {workers} worker(s)")
+    return 0
+
+
+def _versions(raw):
+    # Meep is imported only in the workers (it prints on standard output), which report its version.
+    return {"package_version": __version__, "meep_version": raw[0]["meep_version"]}
+
+
+def cmd_run(args):
+    from postprocess.analysis import analyse, format_report
+    from postprocess.results import write_results
+
+    case, text, layout = _load(args.case)
+    out = Path(args.output) if args.output else Path(Path(args.case).stem + ".h5")
+    if not out.parent.is_dir():
+        raise CaseError("command line", "-o", f"the folder of {out} does not exist")
+    jobs = plan_jobs(case, layout)
+    if not args.quiet:
+        print(f"running {len(jobs)} job(s) of {args.case}", file=sys.stderr)
+    started = time.perf_counter()
+    raw = run_jobs(case, layout, jobs, workers=args.workers, progress=not args.quiet)
+    merged = [{**job, **result} for job, result in zip(jobs, raw)]
+    summary = analyse(case, merged, layout.wavelengths, layout.resolution)
+    summary["result_file"] = str(out)
+    write_results(out, case_file=args.case, case_text=text, resolved_toml=tomli_w.dumps(resolved_dict(case)),
+                  layout=layout, jobs=jobs, raw=raw, summary=summary, versions=_versions(raw))
+    elapsed = time.perf_counter() - started
+    if args.json:
+        print(json.dumps(summary, indent=2))
+    else:
+        print(format_report(summary, f"{args.case}: {len(jobs)} job(s) in {elapsed:.1f} s -> {out}"))
+    return 0
+
+
+def cmd_show(args):
+    from postprocess.analysis import analyse, format_report
+    from postprocess.results import read_results
+    from .case import parse_case
+    import tomllib
+
+    data = read_results(args.result)
+    case = parse_case(tomllib.loads(data["case_resolved"]), source=f"{args.result}:/case/resolved")
+    summary = analyse(case, data["jobs"], data["grid"]["wavelengths"], data["grid"]["resolution"])
+    summary["result_file"] = str(args.result)
+    if args.json:
+        print(json.dumps(summary, indent=2))
+    else:
+        a = data["attrs"]
+        print(format_report(summary, f"{args.result}: case {a['case_file']}, {len(data['jobs'])} job(s), "
+                                     f"outcouple {a['package_version']}, Meep {a['meep_version']}"))
+    return 0
+
+
+def _positive_int(text):
+    try:
+        value = int(text)
+    except ValueError:
+        value = 0
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"must be a whole number of at least 1, not {text!r}")
+    return value
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):
+        self.print_usage(sys.stderr)
+        print(f"error: command line: {message}", file=sys.stderr)
+        sys.exit(EXIT_INPUT)
+
+
+def build_parser():
+    parser = _Parser(prog="outcouple", description="Light extraction from emitting chips by 2-D FDTD (Meep).")
+    parser.add_argument("--version", action="version", version=f"outcouple {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+    p = sub.add_parser("check", help="validate a case and print the derived grid and estimates")
+    p.add_argument("case", help="TOML case file")
+    p.set_defaults(func=cmd_check)
+    p = sub.add_parser("run", help="run the FDTD jobs of a case and report the extraction efficiency")
+    p.add_argument("case", help="TOML case file")
+    p.add_argument("-o", "--output", help="result file (HDF5); default: CASE's name with .h5, here")
+    p.add_argument("--json", action="store_true", help="print the summary as JSON on standard output")
+    p.add_argument("--workers", type=_positive_int, help="worker processes (default: number of cores)")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(func=cmd_run)
+    p = sub.add_parser("show", help="report the results stored in a result file")
+    p.add_argument("result", help="HDF5 result file written by 'outcouple run'")
+    p.add_argument("--json", action="store_true", help="print the summary as JSON")
+    p.set_defaults(func=cmd_show)
+    return parser
+
+
+def main(args=None):
+    from postprocess.results import ResultFileError
+
+    parsed = build_parser().parse_args(args)
+    try:
+        return parsed.func(parsed)
+    except CaseError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    except ResultFileError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    except KeyboardInterrupt:
+        print("interrupted; no result file written", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())
