@@ -179,7 +179,7 @@ def make_layout(case, source="case"):
         width = max(8 * lam_max, 4 * _period(case.surface)) + 2 * max(abs(x) for x in xs)
     half = snap_up(width / 2, resolution)
     width = 2 * half
-    cell_x = width + 2 * pml
+    cell_x = round((width + 2 * pml) * resolution) / resolution
 
     polyline = geometry.surface_polyline(case.surface, -cell_x / 2 - cell, cell_x / 2 + cell)
     pattern_bottom = geometry.deepest_point(polyline)
@@ -231,8 +231,8 @@ def make_layout(case, source="case"):
     # An odd number of cells in y would put the cell centre between grid lines.
     if round((y_cell_top - y_cell_bottom) * resolution) % 2:
         y_cell_bottom -= cell
-    cell_y = y_cell_top - y_cell_bottom
-    y_center = (y_cell_top + y_cell_bottom) / 2
+    cell_y = round((y_cell_top - y_cell_bottom) * resolution) / resolution
+    y_center = snap((y_cell_top + y_cell_bottom) / 2, resolution)
     symmetric = geometry.is_mirror_symmetric(case.surface, polyline)
 
     feature = _smallest_feature(case.surface)

@@ -78,9 +78,16 @@ def build_simulation(case, layout, orientation, x0, symmetric):
     )
 
 
-def _region(start, end):
+def _region(start, end, resolution):
+    """Centre and size of a line, shortened by a hair at both ends.
+
+    The ends lie on grid lines; rounding could put them a hair beyond, and Meep
+    would then include one more Yee sample than postprocess.flux expects.
+    """
     (x1, y1), (x2, y2) = start, end
-    return mp.Vector3((x1 + x2) / 2, (y1 + y2) / 2), mp.Vector3(x2 - x1, y2 - y1)
+    hair = 1e-4 / resolution
+    size = mp.Vector3(max(x2 - x1 - 2 * hair, 0), max(y2 - y1 - 2 * hair, 0))
+    return mp.Vector3((x1 + x2) / 2, (y1 + y2) / 2), size
 
 
 def run_job(case, layout, orientation, x0, symmetric):
@@ -105,7 +112,7 @@ def run_job(case, layout, orientation, x0, symmetric):
     lines = monitor_lines(layout, x0)
     dft, flux = {}, {}
     for name, (start, end, normal) in lines.items():
-        center, size = _region(start, end)
+        center, size = _region(start, end, layout.resolution)
         dft[name] = sim.add_dft_fields([_MEEP_COMPONENT[c] for c in saved], freqs, center=center, size=size,
                                        yee_grid=True)
         weight = -1.0 if normal.startswith("-") else 1.0
