@@ -103,25 +103,3 @@ def summarise(jobs, wavelengths, lossless):
         "emission_factor": grand["emitted"] / (len(jobs) * len(wavelengths)),
         "jobs": per_job,
     }
-
-
-def combine_reference(per_job, wavelengths):
-    """Combine exact per-job, per-wavelength results by the same power-weighting rule.
-
-    ``per_job`` is a list of (orientation, [half_space result per wavelength]).
-    Bulk-normalised exact results already carry equal intrinsic emission, so
-    top and emitted (``emission``) add directly.
-    """
-    tops = np.array([[r["top"] for r in results] for _, results in per_job])
-    emitted = np.array([[r["emission"] for r in results] for _, results in per_job])
-    by_orientation = {}
-    for orientation in dict.fromkeys(o for o, _ in per_job):
-        rows = [i for i, (o, _) in enumerate(per_job) if o == orientation]
-        by_orientation[orientation] = float(tops[rows].sum() / emitted[rows].sum())
-    return {
-        "efficiency": float(tops.sum() / emitted.sum()),
-        "efficiency_spectrum": (tops.sum(axis=0) / emitted.sum(axis=0)).tolist(),
-        "by_orientation": by_orientation,
-        "emission_factor": float(emitted.mean()),
-        "wavelengths": [float(w) for w in wavelengths],
-    }

@@ -157,24 +157,3 @@ def half_space(n_chip, n_ambient, depth, wavelength, orientation, ideal_cone=Fal
     bottom = 2 * (_quad(downward, 0, theta_c) + _quad(downward, theta_c, half_pi))
     return {"efficiency": top / emission, "emission": emission, "top": top, "bottom": emission - top,
             "bottom_flux": bottom}
-
-
-def escape_cone(orientation, n_chip, n_ambient):
-    """Fraction of a line emitter's bulk power inside the escape cone (no Fresnel loss).
-
-    Integrating the bulk patterns over |theta| < theta_c (derived here):
-    out-of-plane theta_c/pi; parallel (theta_c + sin theta_c cos theta_c)/pi;
-    normal (theta_c - sin theta_c cos theta_c)/pi; their mean (isotropic,
-    equal bulk power per orientation) theta_c/pi.
-    """
-    tc = critical_angle(n_chip, n_ambient)
-    sc = np.sin(tc) * np.cos(tc)
-    return {"out-of-plane": tc / np.pi, "parallel": (tc + sc) / np.pi, "normal": (tc - sc) / np.pi,
-            "isotropic": tc / np.pi}[orientation]
-
-
-def incoherent_top(orientation, n_chip, n_ambient):
-    """Escaped fraction with Fresnel losses but without interference (thick-chip limit)."""
-    theta_c = critical_angle(n_chip, n_ambient)
-    return 2 * _quad(lambda t: pattern(orientation, t) * _reflection(orientation, n_chip, n_ambient, t)[1],
-                     0, theta_c)

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 import tmm
 
-from postprocess import planar
+from postprocess import closed_forms, planar
 
 ORIENTATIONS = planar.ORIENTATIONS
 
@@ -45,7 +45,7 @@ def _depth_averaged(n_chip, orientation, ideal_cone, wavelength=1.0, start=12.0,
 def test_thick_limit_without_fresnel_matches_closed_forms(n_chip, orientation):
     """Deep emitter, perfect transmission inside the cone: theta_c/pi, (theta_c +- sin cos)/pi.
 
-    The closed forms are derived in planar.escape_cone's docstring by integrating the bulk
+    The closed forms are derived in closed_forms.escape_cone's docstring by integrating the bulk
     patterns over the escape cone; here they are evaluated from the formula text directly.
     """
     tc = np.arcsin(1 / n_chip)
@@ -53,7 +53,7 @@ def test_thick_limit_without_fresnel_matches_closed_forms(n_chip, orientation):
               "normal": (tc - np.sin(tc) * np.cos(tc)) / np.pi}[orientation]
     ours = _depth_averaged(n_chip, orientation, ideal_cone=True)
     assert ours == pytest.approx(closed, rel=5e-3), f"ours {ours:.6f} vs closed form {closed:.6f}"
-    assert planar.escape_cone(orientation, n_chip, 1.0) == pytest.approx(closed, rel=1e-12)
+    assert closed_forms.escape_cone(orientation, n_chip, 1.0, dim=2) == pytest.approx(closed, rel=1e-12)
 
 
 @pytest.mark.parametrize("orientation", ORIENTATIONS)
