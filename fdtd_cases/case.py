@@ -14,7 +14,7 @@ Nothing deeper in the numerics re-checks input.
 import math
 import tomllib
 from pathlib import Path
-from typing import Annotated, Literal, Optional, Union
+from typing import Annotated, Literal, Optional, Union, get_args, get_origin
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
@@ -86,16 +86,25 @@ class Chip(_Table):
         Intensity attenuation coefficient, 1/cm.
     thickness : float
         µm from y = 0 down to the back side; ``inf`` for a half-space.
-    back : {"open", "mirror"}
-        ``open``: the chip material runs into the absorbing boundary (at
-        y = -thickness when that is finite). ``mirror``: a perfect reflector
-        at y = -thickness.
+    back : {"open", "mirror", "metal", "substrate"}
+        ``open``: the chip material runs on below (into the absorbing
+        boundary); ``thickness`` then only places the bottom monitor.
+        ``mirror``: a perfect reflector at y = -thickness. ``metal``: a metal
+        half-space of complex index ``back_index`` + i ``back_extinction``
+        below y = -thickness. ``substrate``: a lossless half-space of index
+        ``back_index`` below y = -thickness.
+    back_index : float, optional
+        Real part of the index of the metal, or the substrate's index.
+    back_extinction : float, optional
+        Imaginary part of the metal's index (the extinction coefficient k).
     """
 
     index: float = Field(ge=1.0, le=10.0, allow_inf_nan=False)
     alpha: float = Field(0.0, ge=0, allow_inf_nan=False)
     thickness: float = Field(math.inf, gt=0)
-    back: Literal["open", "mirror"] = "open"
+    back: Literal["open", "mirror", "metal", "substrate"] = "open"
+    back_index: Optional[float] = Field(None, gt=0, le=10.0, allow_inf_nan=False)
+    back_extinction: Optional[float] = Field(None, gt=0, le=100.0, allow_inf_nan=False)
 
     @field_validator("thickness")
     def _no_nan(cls, value):
@@ -104,14 +113,46 @@ class Chip(_Table):
         return value
 
     @model_validator(mode="after")
-    def _mirror_needs_thickness(self):
-        if self.back == "mirror" and math.isinf(self.thickness):
-            raise ValueError("back = \"mirror\" needs a finite thickness")
+    def _back_side(self):
+        if self.back != "open" and math.isinf(self.thickness):
+            raise ValueError(f'back = "{self.back}" needs a finite thickness')
+        if self.back in ("metal", "substrate") and self.back_index is None:
+            raise ValueError(f'back = "{self.back}" needs back_index')
+        if self.back == "metal" and self.back_extinction is None:
+            raise ValueError('back = "metal" needs back_extinction (the k of n + ik)')
+        if self.back == "substrate" and self.back_index is not None and self.back_index < 1:
+            raise ValueError("back_index of a substrate must be at least 1")
+        if self.back in ("open", "mirror") and self.back_index is not None:
+            raise ValueError(f'back_index applies only to back = "metal" or "substrate", not "{self.back}"')
+        if self.back != "metal" and self.back_extinction is not None:
+            raise ValueError(f'back_extinction applies only to back = "metal", not "{self.back}"')
         return self
 
     @property
     def alpha_per_um(self):
         """Intensity attenuation coefficient in 1/µm (1/cm times 1e-4)."""
+        return per_um(self.alpha)
+
+
+class Film(_Table):
+    """``[[film]]``: one thin film on the chip top; films are listed from the chip outward.
+
+    Parameters
+    ----------
+    index : float
+        Real refractive index.
+    thickness : float
+        µm.
+    alpha : float
+        Intensity attenuation coefficient, 1/cm.
+    """
+
+    index: float = Field(ge=1.0, le=10.0, allow_inf_nan=False)
+    thickness: Length
+    alpha: float = Field(0.0, ge=0, allow_inf_nan=False)
+
+    @property
+    def alpha_per_um(self):
         return per_um(self.alpha)
 
 
@@ -257,6 +298,7 @@ class Case(_Table):
     light: Light
     ambient: Ambient = Ambient()
     chip: Chip
+    film: list[Film] = []
     surface: Surface = Flat(pattern="flat")
     emitter: Emitter
     grid: Grid = Grid()
@@ -266,10 +308,14 @@ def _table_class(loc):
     """The model class that owns the key at ``loc`` (for listing allowed keys)."""
     cls = Case
     for part in loc[:-1]:
-        field = cls.model_fields.get(part) if isinstance(part, str) else None
+        if isinstance(part, int):
+            continue  # an entry of an array of tables, such as [[film]]
+        field = cls.model_fields.get(part)
         if field is None:
             return None
         annotation = field.annotation
+        if get_origin(annotation) is list:
+            annotation = get_args(annotation)[0]
         if isinstance(annotation, type) and issubclass(annotation, BaseModel):
             cls = annotation
         else:
@@ -318,7 +364,7 @@ def parse_case(data, source="case"):
         listed, one per line.
     """
     try:
-        return Case.model_validate(data)
+        case = Case.model_validate(data)
     except ValidationError as exc:
         pattern = None
         if isinstance(data.get("surface"), dict):
@@ -329,6 +375,11 @@ def parse_case(data, source="case"):
             rest = "\n".join(f"  {source}: {k}: {m}" for k, m in lines[1:])
             message = f"{message}\n{rest}"
         raise CaseError(source, key, message) from None
+    depth, thickness = case.emitter.depth, case.chip.thickness
+    if depth >= thickness:
+        raise CaseError(source, "emitter.depth", f"is {depth:g} µm, not inside the chip "
+                        f"(chip.thickness = {thickness:g} µm)")
+    return case
 
 
 def load_case(path):

@@ -3,6 +3,7 @@
     outcouple check CASE
     outcouple run CASE [-o FILE.h5] [--json] [--workers N] [--quiet]
     outcouple show FILE.h5 [--json]
+    outcouple reference CASE [--json]
 
 Bad input: one message naming the file and key on standard error, exit
 code 2, no traceback, no result file.
@@ -112,6 +113,48 @@ def cmd_show(args):
     return 0
 
 
+def cmd_reference(args):
+    from postprocess.reference import case_reference, CATEGORIES
+
+    case, _ = load_case(args.case)
+    result = case_reference(case)
+    result["case"] = str(args.case)
+    if args.json:
+        print(json.dumps(result, indent=2))
+        return 0
+    line, dot = result, result["point_dipole"]
+    flat = case.surface.pattern == "flat"
+    print(f"{args.case}: {result['kind']}")
+    if not flat:
+        print("  the pattern itself is not modelled here: these numbers bracket it, they do not predict it")
+    print(f"\n  {'':>22}  {'line emitter (2-D)':>18}  {'point dipole (3-D)':>18}")
+    print(f"  {'extraction efficiency':>22}  {line['efficiency']:>18.4f}  {dot['efficiency']:>18.4f}")
+    for name in line["by_orientation"]:
+        print(f"  {name:>22}  {line['by_orientation'][name]:>18.4f}  {dot['by_orientation'][name]:>18.4f}")
+    for key in CATEGORIES:
+        print(f"  {'budget: ' + key:>22}  {line['budget'][key]:>18.4f}  {dot['budget'][key]:>18.4f}")
+    print(f"  {'emission factor':>22}  {line['emission_factor']:>18.4f}  {dot['emission_factor']:>18.4f}")
+    if line["balance_error"] is not None:
+        print(f"  {'balance error':>22}  {line['balance_error']:>18.1e}  {dot['balance_error']:>18.1e}"
+              "   (|emitted - top - bottom - guided| / emitted, guided power from the mode poles)")
+    cones = result["escape_cone"]
+    print(f"  {'escape cone, ideal':>22}  {cones['line_emitter']['ideal']:>18.4f}  "
+          f"{cones['point_dipole']['ideal']:>18.4f}   (thick chip, no interface loss)")
+    print(f"  {'escape cone, Fresnel':>22}  {cones['line_emitter']['with_fresnel']:>18.4f}  "
+          f"{cones['point_dipole']['with_fresnel']:>18.4f}   (thick chip, no interference)")
+    if not flat:
+        bound = result["randomising_bound"]
+        print(f"  {'randomising multi-pass':>22}  {bound['line_emitter']:>18.4f}  {bound['point_dipole']:>18.4f}"
+              "   (an ideal randomising top over this chip and back)")
+    if line["guided_modes"]:
+        print(f"\n  guided modes excited at {line['wavelengths'][0]:g} um (effective indices):")
+        for pol, label in (("s", "s (E along z)"), ("p", "p (H along z)")):
+            if line["guided_modes"].get(pol):
+                print(f"    {label}: " + ", ".join(f"{n:.4f}" for n in line["guided_modes"][pol]))
+    print(f"\n  method: {result['method']}")
+    return 0
+
+
 def _positive_int(text):
     try:
         value = int(text)
@@ -147,6 +190,10 @@ def build_parser():
     p.add_argument("result", help="HDF5 result file written by 'outcouple run'")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.set_defaults(func=cmd_show)
+    p = sub.add_parser("reference", help="exact planar and closed-form reference values of a case (no FDTD)")
+    p.add_argument("case", help="TOML case file")
+    p.add_argument("--json", action="store_true", help="print the values as JSON")
+    p.set_defaults(func=cmd_reference)
     return parser
 
 

@@ -15,7 +15,11 @@ Vertical layout, top to bottom::
     surface, highest point y = 0
     chip, emitter at y = -depth inside its square flux contour
     bottom monitor y_bottom
-    PML (chip material, open back)  or  perfect mirror at y = -thickness
+    PML (chip material, open back; or substrate below y = -thickness)
+    or a perfect mirror at y = -thickness
+
+Films (flat surfaces only) lie on y = 0 and the top monitor and ambient
+gap are measured from the top film.
 
 Side monitors run from y_bottom to y_top at x = -width/2 and x = +width/2.
 """
@@ -68,6 +72,10 @@ class Layout:
     chip_polygon: np.ndarray = field(repr=False)
     mirror_y: float | None
     bottom_pml: bool
+    films: tuple
+    """(y_low, y_high, index, alpha in 1/µm) of each film, from the chip outward."""
+    substrate_y: float | None
+    """Top of the substrate half-space (y = -thickness), when the back side is a substrate."""
     symmetric: bool
     points_per_wavelength: dict
     fcen: float
@@ -128,21 +136,48 @@ def snap_down(value, resolution):
 
 def _resolution(case, wavelengths, source, warnings):
     grid = case.grid
-    n_max = max(case.chip.index, case.ambient.index)
+    n_max = max(_indices(case).values())
     lam_min = wavelengths.min()
     if grid.resolution is not None:
         resolution, key = grid.resolution, "grid.resolution"
     else:
         resolution, key = math.ceil(grid.points_per_wavelength * n_max / lam_min), "grid.points_per_wavelength"
-    ppw = {name: lam_min * resolution / n for name, n in (("chip", case.chip.index), ("ambient", case.ambient.index))}
+    ppw = {name: lam_min * resolution / n for name, n in _indices(case).items()}
     worst = min(ppw.values())
     if worst < MIN_PPW_ERROR:
-        raise CaseError(source, key, f"gives {worst:.1f} points per wavelength in the chip at "
+        raise CaseError(source, key, f"gives {worst:.1f} points per wavelength in the densest material at "
                         f"{lam_min:g} µm; at least {MIN_PPW_ERROR} are needed (16 or more for about 1% accuracy)")
     if worst < MIN_PPW_WARN:
-        warnings.append((key, f"gives only {worst:.1f} points per wavelength in the chip; "
+        warnings.append((key, f"gives only {worst:.1f} points per wavelength in the densest material; "
                               f"below {MIN_PPW_WARN} expect errors of several percent"))
     return resolution, ppw
+
+
+def _indices(case):
+    """Real index of every material of the FDTD domain, by name."""
+    found = {"chip": case.chip.index, "ambient": case.ambient.index}
+    for i, film in enumerate(case.film):
+        found[f"film[{i}]"] = film.index
+    if case.chip.back == "substrate":
+        found["substrate"] = case.chip.back_index
+    return found
+
+
+def _films(case, source, resolution, warnings):
+    """Film layers above y = 0 (flat surfaces only), bottom to top."""
+    if not case.film:
+        return ()
+    if case.surface.pattern != "flat":
+        raise CaseError(source, "film", "films on a patterned surface are not modelled by the FDTD yet; "
+                        "'outcouple reference' gives the flat-surface baseline with them")
+    layers, y = [], 0.0
+    for i, film in enumerate(case.film):
+        if film.thickness * resolution < 2:
+            warnings.append((f"film[{i}].thickness", f"is {film.thickness:g} µm, fewer than two grid cells "
+                                                     f"({2 / resolution:.3g} µm); refine the grid"))
+        layers.append((y, y + film.thickness, film.index, film.alpha_per_um))
+        y += film.thickness
+    return tuple(layers)
 
 
 def _period(surface):
@@ -189,9 +224,6 @@ def make_layout(case, source="case"):
                         f"point of the pattern ({-pattern_bottom:g} µm below y = 0)")
     clearance = depth + pattern_bottom
     if math.isfinite(case.chip.thickness):
-        if depth >= case.chip.thickness:
-            raise CaseError(source, "emitter.depth", f"is {depth:g} µm, not inside the chip "
-                            f"(chip.thickness = {case.chip.thickness:g} µm)")
         clearance = min(clearance, case.chip.thickness - depth)
 
     # The contour must sit in homogeneous chip material with two cells to spare.
@@ -212,16 +244,25 @@ def make_layout(case, source="case"):
             raise CaseError(source, f"emitter.x[{i}]", f"is {x:g} µm, outside the domain: |x| must be at most "
                             f"{half - contour - 2 * cell:.4g} µm (grid.width = {width:g} µm)")
 
-    y_top = snap_up(max(TOP_GAP * lam_max, 2 * cell), resolution)
-    y_cell_top = snap_up(AMBIENT_GAP * lam_max, resolution) + pml
-    if math.isfinite(case.chip.thickness) and case.chip.back == "mirror":
+    if case.chip.back == "metal":
+        raise CaseError(source, "chip.back", 'is "metal": the FDTD runner does not model metal back sides yet; '
+                        "'outcouple reference' gives the exact planar result")
+    films = _films(case, source, resolution, warnings)
+    film_top = films[-1][1] if films else 0.0
+    y_top = snap_up(film_top + max(TOP_GAP * lam_max, 2 * cell), resolution)
+    y_cell_top = snap_up(film_top + AMBIENT_GAP * lam_max, resolution) + pml
+    substrate_y = None
+    if case.chip.back == "mirror":
         mirror_y = snap(-case.chip.thickness, resolution)
         y_bottom = mirror_y + cell
         y_cell_bottom = mirror_y - 2 * cell
         bottom_pml = False
     else:
         mirror_y = None
-        if math.isfinite(case.chip.thickness):
+        if case.chip.back == "substrate":
+            substrate_y = -case.chip.thickness
+            y_bottom = snap_down(substrate_y - 2 * cell, resolution)
+        elif math.isfinite(case.chip.thickness):
             y_bottom = snap(-case.chip.thickness, resolution)
         else:
             below = max(lam_max / (4 * n_chip), 3 * cell)
@@ -250,8 +291,9 @@ def make_layout(case, source="case"):
         resolution=resolution, wavelengths=wavelengths, width=width, pml=pml, cell_x=cell_x,
         cell_y=cell_y, y_center=y_center, y_top=y_top, y_bottom=y_bottom, x_side=half,
         contour=contour, depth=depth, pattern_bottom=pattern_bottom, polyline=polyline,
-        chip_polygon=geometry.chip_polygon(polyline, y_cell_bottom - 1.0 if mirror_y is None else mirror_y),
-        mirror_y=mirror_y, bottom_pml=bottom_pml, symmetric=symmetric, points_per_wavelength=ppw,
+        chip_polygon=geometry.chip_polygon(polyline, mirror_y if mirror_y is not None else
+                                           substrate_y if substrate_y is not None else y_cell_bottom - 1.0),
+        mirror_y=mirror_y, bottom_pml=bottom_pml, films=films, substrate_y=substrate_y, symmetric=symmetric, points_per_wavelength=ppw,
         fcen=fcen, fwidth=fwidth, warnings=tuple(warnings),
     )
 

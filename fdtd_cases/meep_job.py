@@ -53,6 +53,13 @@ def build_simulation(case, layout, orientation, x0, symmetric):
                      D_conductivity=d_conductivity(case.chip.alpha_per_um, case.chip.index))
     geometry = [mp.Prism(vertices=[mp.Vector3(x, y) for x, y in layout.chip_polygon],
                          height=mp.inf, material=chip)]
+    for y_low, y_high, index, alpha in layout.films:
+        geometry.append(mp.Block(center=mp.Vector3(0, (y_low + y_high) / 2), size=mp.Vector3(mp.inf, y_high - y_low),
+                                 material=mp.Medium(index=index, D_conductivity=d_conductivity(alpha, index))))
+    if layout.substrate_y is not None:
+        depth = layout.substrate_y - layout.y_cell_bottom + 1.0
+        geometry.append(mp.Block(center=mp.Vector3(0, layout.substrate_y - depth / 2), size=mp.Vector3(mp.inf, depth),
+                                 material=mp.Medium(index=case.chip.back_index)))
     if layout.mirror_y is not None:
         depth = layout.mirror_y - layout.y_cell_bottom
         geometry.append(mp.Block(center=mp.Vector3(0, layout.mirror_y - depth / 2 - 0.5),

@@ -5,22 +5,20 @@ show`` (on the fields read back from the HDF5 file), so both print the same
 numbers from the same integration.
 """
 
-from . import planar
-from .budget import bulk_power, combine_reference, job_fluxes, summarise
+from . import reference
+from .reference import CATEGORIES
+from .budget import bulk_power, job_fluxes, summarise
 
 
 def reference_applies(case):
-    """The exact half-space reference covers flat, lossless, open-backed chips."""
-    return case.surface.pattern == "flat" and case.chip.back == "open" and case.chip.alpha == 0
+    """The exact planar solver covers every flat case: films, absorption, any back side."""
+    return case.surface.pattern == "flat"
 
 
-def exact_reference(case, orientations):
-    """Exact planar efficiency combined like the FDTD jobs (one per orientation)."""
-    wavelengths = case.light.wavelengths()
-    per_job = [(o, [planar.half_space(case.chip.index, case.ambient.index, case.emitter.depth, lam, o)
-                    for lam in wavelengths]) for o in orientations]
-    result = combine_reference(per_job, wavelengths)
-    result["method"] = "exact plane-wave (angular-spectrum) integral with Fresnel coefficients, flat half-space"
+def exact_reference(case):
+    """Exact planar result of the case's line emitter, combined like the FDTD jobs."""
+    result = reference.planar(case, dim=2)
+    result["method"] = "exact plane-wave (angular-spectrum) expansion in the flat stack"
     return result
 
 
@@ -42,7 +40,7 @@ def analyse(case, jobs, wavelengths, resolution):
             if key in job:
                 entry[key] = job[key]
     if reference_applies(case):
-        summary["reference"] = exact_reference(case, list(dict.fromkeys(j["orientation"] for j in jobs)))
+        summary["reference"] = exact_reference(case)
     return summary
 
 
@@ -76,8 +74,10 @@ def format_report(summary, title):
         out.append(row)
     b = summary["budget"]
     out += ["", "  power budget (fractions of the emitted power, all jobs and wavelengths):",
-            f"    top (escaped) {b['top']:.4f}   bottom {b['bottom']:.4f}   sides {b['sides']:.4f}   "
-            f"absorbed {b['absorbed']:.4f}"]
+            f"    {'':>8}  {'top':>8}  {'bottom':>8}  {'sides':>8}  {'absorbed':>8}",
+            f"    {'FDTD':>8}  " + "  ".join(f"{b[k]:>8.4f}" for k in CATEGORIES)]
+    if ref:
+        out.append(f"    {'exact':>8}  " + "  ".join(f"{ref['budget'][k]:>8.4f}" for k in CATEGORIES))
     if summary["balance_error"] is not None:
         out.append(f"    balance error (lossless: |emitted - top - bottom - sides| / emitted) "
                    f"{summary['balance_error']:.4f}")

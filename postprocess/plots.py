@@ -10,6 +10,8 @@ CHIP_COLOUR = "#c9b27c"
 AMBIENT_COLOUR = "#eef4f8"
 MONITOR_COLOUR = "#1f5f8b"
 EMITTER_COLOUR = "#b3261e"
+FILM_COLOURS = ("#7fb3a6", "#a6c98f", "#d9a0b8")
+SUBSTRATE_COLOUR = "#9fa8c7"
 
 
 def plot_structure(layout, emitter_x, path, title=""):
@@ -21,6 +23,11 @@ def plot_structure(layout, emitter_x, path, title=""):
     poly = layout.chip_polygon.copy()
     poly[:, 1] = np.maximum(poly[:, 1], y0)
     ax.fill(poly[:, 0], poly[:, 1], color=CHIP_COLOUR, zorder=1, label="chip")
+    for i, (y_low, y_high, _, _) in enumerate(layout.films):
+        ax.fill_between([x0, x1], y_low, y_high, color=FILM_COLOURS[i % len(FILM_COLOURS)], zorder=2,
+                        label=f"film {i + 1}")
+    if layout.substrate_y is not None:
+        ax.fill_between([x0, x1], y0, layout.substrate_y, color=SUBSTRATE_COLOUR, zorder=2, label="substrate")
     if layout.mirror_y is not None:
         ax.fill_between([x0, x1], y0, layout.mirror_y, color="#7a7a7a", zorder=2, label="mirror")
     p = layout.pml
