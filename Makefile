@@ -40,6 +40,7 @@ test: setup
 	@$(PY) -m pytest -q -p no:cacheprovider
 
 bench: setup
+	@$(PY) bench/bench_planar.py
 	@$(PY) bench/bench_runner.py
 
 clean:

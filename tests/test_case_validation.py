@@ -32,6 +32,22 @@ BAD = {
     "mirror without thickness": (GOOD.replace("index = 2.4", 'index = 2.4\nback = "mirror"'), "chip",
                                  "finite thickness"),
     "toml syntax": (GOOD.replace("index = 2.4", "index = = 2.4"), "", "not valid TOML"),
+    "unknown film key": (GOOD + "[[film]]\nindex = 1.5\nthickness = 0.1\ncolour = 1\n", "film[0].colour",
+                         "allowed here: index, thickness, alpha"),
+    "film without thickness": (GOOD + "[[film]]\nindex = 1.5\n", "film[0].thickness", "missing"),
+    "metal without extinction": (GOOD.replace("index = 2.4", 'index = 2.4\nthickness = 2.0\nback = "metal"\n'
+                                              "back_index = 0.2"), "chip", "back_extinction"),
+    "index for a mirror": (GOOD.replace("index = 2.4", 'index = 2.4\nthickness = 2.0\nback = "mirror"\n'
+                                        "back_index = 1.5"), "chip", "back_index applies only"),
+    "emitter below the chip": (GOOD.replace("index = 2.4", "index = 2.4\nthickness = 0.4"), "emitter.depth",
+                               "not inside the chip"),
+}
+
+# Valid cases the FDTD cannot run yet: check and run refuse them, 'reference' accepts them.
+FDTD_ONLY = {
+    "films on a pattern": (GOOD + "[[film]]\nindex = 1.5\nthickness = 0.1\n", "film", "patterned surface"),
+    "metal back": (GOOD.replace("index = 2.4", 'index = 2.4\nthickness = 2.0\nback = "metal"\n'
+                                "back_index = 0.2\nback_extinction = 5.0"), "chip.back", "reference"),
 }
 
 
@@ -46,6 +62,30 @@ def test_bad_case_is_refused_clearly(tmp_path, name):
         assert "Traceback" not in result.stderr
         assert "bad_case.toml" in result.stderr and key in result.stderr and words in result.stderr, result.stderr
         assert not list(tmp_path.glob("*.h5*")), "no result file may be written for bad input"
+
+
+@pytest.mark.parametrize("name", ["unknown key", "wrong type", "unknown film key", "metal without extinction",
+                                  "index for a mirror", "emitter below the chip", "toml syntax"])
+def test_reference_refuses_bad_cases(tmp_path, name):
+    """The case-file checks (not the grid checks: the reference needs no grid) guard 'reference' too."""
+    text, key, words = BAD[name]
+    case = tmp_path / "bad_case.toml"
+    case.write_text(text)
+    result = run_cli("reference", case, "--json")
+    assert result.returncode == 2 and "Traceback" not in result.stderr and result.stdout == ""
+    assert "bad_case.toml" in result.stderr and key in result.stderr and words in result.stderr, result.stderr
+
+
+@pytest.mark.parametrize("name", sorted(FDTD_ONLY))
+def test_cases_beyond_the_fdtd(tmp_path, name):
+    text, key, words = FDTD_ONLY[name]
+    case = tmp_path / "case.toml"
+    case.write_text(text)
+    for command in (["check", case], ["run", case, "-o", tmp_path / "out.h5", "--quiet"]):
+        result = run_cli(*command, cwd=tmp_path)
+        assert result.returncode == 2 and key in result.stderr and words in result.stderr, result.stderr
+        assert not list(tmp_path.glob("*.h5*"))
+    assert run_cli("reference", case).returncode == 0
 
 
 def test_missing_file(tmp_path):
@@ -77,6 +117,10 @@ def test_show_refuses_a_non_result_file(tmp_path):
 
 @pytest.mark.parametrize("config", sorted(p.name for p in CONFIGS.glob("*.toml")))
 def test_shipped_configs_are_valid(config):
+    if 'back = "metal"' in (CONFIGS / config).read_text():
+        result = run_cli("reference", CONFIGS / config)
+        assert result.returncode == 0 and "point dipole" in result.stdout, result.stderr
+        return
     result = run_cli("check", CONFIGS / config)
     assert result.returncode == 0, result.stderr
     assert "points/wavelength" in result.stdout and "estimate" in result.stdout

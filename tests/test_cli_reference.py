@@ -1,0 +1,77 @@
+"""``outcouple reference``: what it prints, as a user would call it (a subprocess)."""
+
+import json
+import math
+
+import pytest
+
+from conftest import CONFIGS, run_cli
+from postprocess import closed_forms
+from postprocess import multilayer as ml
+
+FLAT = """
+[light]
+wavelength = 0.82
+[chip]
+index = 3.1
+thickness = 0.9
+back = "mirror"
+[[film]]
+index = 1.8
+thickness = 0.114
+[emitter]
+depth = 0.33
+orientation = "isotropic"
+"""
+
+FIELDS = ("efficiency", "by_orientation", "budget", "emission_factor")
+
+
+def test_flat_case_json(tmp_path):
+    """The JSON carries the line emitter's numbers and the point dipole's under point_dipole; each
+    orientation's value equals a direct call of the exact solver on the same stack, and the
+    combined value is the emission-weighted mean (DESIGN.md's rule)."""
+    case = tmp_path / "flat.toml"
+    case.write_text(FLAT)
+    result = run_cli("reference", case, "--json")
+    assert result.returncode == 0, result.stderr
+    data = json.loads(result.stdout)
+    for block in (data, data["point_dipole"]):
+        for key in FIELDS:
+            assert key in block
+        assert set(block["budget"]) == {"top", "bottom", "sides", "absorbed"}
+        assert abs(sum(block["budget"].values()) - 1) < 1e-6
+        assert block["balance_error"] < 1e-6
+    stack = ml.Stack(1.0, ((1.8 + 0j, 0.114),), 3.1 + 0j, 0.9, "mirror")
+    for dim, block in ((2, data), (3, data["point_dipole"])):
+        runs = {o: ml.emitter(stack, 0.33, 0.82, o, dim=dim) for o in ml.ORIENTATIONS}
+        for o, r in runs.items():
+            assert block["by_orientation"][o] == pytest.approx(r["efficiency"], rel=1e-9)
+        combined = sum(r["efficiency"] * r["emission"] for r in runs.values()) / sum(r["emission"] for r in runs.values())
+        assert block["efficiency"] == pytest.approx(combined, rel=1e-9)
+    assert "farfield" in data and len(data["farfield"]["angle"]) == len(data["farfield"]["intensity"])
+    assert data["kind"] == "exact planar"
+    cone = closed_forms.escape_cone("isotropic", 3.1, 1.0, dim=3)
+    assert data["escape_cone"]["point_dipole"]["ideal"] == pytest.approx(cone, rel=1e-12)
+
+
+def test_patterned_case_reports_bounds(tmp_path):
+    """A patterned case: the flat baseline of the same stack and the randomising multi-pass
+    estimate, labelled as bounds; the multi-pass value equals closed_forms.multipass with a
+    perfect mirror (reflectivity 1)."""
+    text = FLAT.replace("[emitter]", '[surface]\npattern = "triangle"\nperiod = 1.2\nheight = 0.2\n[emitter]')
+    case = tmp_path / "textured.toml"
+    case.write_text(text)
+    data = json.loads(run_cli("reference", case, "--json").stdout)
+    assert "bound" in data["kind"] and "not a prediction" in data["kind"]
+    expected = closed_forms.multipass(3.1, 1.0, 0.0, 0.9, 0.33, 1.0, dim=3)
+    assert data["randomising_bound"]["point_dipole"] == pytest.approx(expected, rel=1e-12)
+    assert math.isclose(expected, 1.0)  # lossless chip on a perfect mirror: all light leaves eventually
+    text_out = run_cli("reference", case).stdout
+    assert "bracket" in text_out and "randomising multi-pass" in text_out
+
+
+def test_metal_example_runs():
+    result = run_cli("reference", CONFIGS / "metal_back.toml")
+    assert result.returncode == 0, result.stderr
+    assert "absorbed" in result.stdout and "point dipole" in result.stdout
