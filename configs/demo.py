@@ -43,6 +43,12 @@ def main():
               f"{b['absorbed']:>8.4f} {s['balance_error']:>8.4f} {exact:>7}")
     gain = summaries["demo_grating"]["efficiency"] / summaries["demo_flat"]["efficiency"]
     print(f"\ngrating / flat extraction: {gain:.2f}x")
+    bounds = json.loads(subprocess.run([sys.executable, "-m", "fdtd_cases.cli", "reference", str(grating), "--json"],
+                                       stdout=subprocess.PIPE, text=True, check=True).stdout)
+    print(f"bounds for the grating die (outcouple reference, no FDTD): flat surface, exact "
+          f"{bounds['efficiency']:.4f}; an ideal randomising top over the same chip "
+          f"{bounds['randomising_bound']['line_emitter']:.4f} (line emitter), "
+          f"{bounds['randomising_bound']['point_dipole']:.4f} (point dipole)")
     case, _ = load_case(grating)
     plot_structure(make_layout(case), case.emitter.x, OUT / "structure.png", "demo: grating die (period 0.42 µm)")
     plot_spectra([("flat", summaries["demo_flat"]), ("grating", summaries["demo_grating"])], OUT / "spectrum.png")

@@ -254,6 +254,10 @@ def make_layout(case, source="case"):
     substrate_y = None
     if case.chip.back == "mirror":
         mirror_y = snap(-case.chip.thickness, resolution)
+        if abs(mirror_y + case.chip.thickness) > 1e-6:
+            warnings.append(("chip.thickness", f"is not a whole number of grid cells; the mirror sits on the "
+                                               f"nearest grid line, {-mirror_y:.4f} µm below y = 0 (a thin chip "
+                                               "on a mirror is sensitive to this: choose grid.resolution to fit)"))
         y_bottom = mirror_y + cell
         y_cell_bottom = mirror_y - 2 * cell
         bottom_pml = False

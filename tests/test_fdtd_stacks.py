@@ -8,12 +8,13 @@ package's runner and analysis, as ``outcouple run`` runs them, two worker proces
 import pytest
 
 from conftest import requires_meep
+from fdtd_cases.case import parse_case
+from postprocess.reference import planar
 
 pytestmark = [requires_meep, pytest.mark.fdtd]
 
 
 def run_case(data):
-    from fdtd_cases.case import parse_case
     from fdtd_cases.layout import make_layout
     from fdtd_cases.runner import plan_jobs, run_jobs
     from postprocess.analysis import analyse
@@ -38,3 +39,28 @@ def test_anti_reflection_film():
         assert ours == pytest.approx(ref, rel=0.03), f"{name}: FDTD {ours:.5f} vs exact {ref:.5f} ({100 * (ours / ref - 1):+.2f}%)"
     assert summary["efficiency"] == pytest.approx(exact["efficiency"], rel=0.03)
     assert summary["balance_error"] < 0.02
+
+
+def test_thin_chip_on_a_mirror():
+    """A 0.6 um chip (n = 3.3) on a perfect mirror, emitter 0.25 um deep, wavelength 1 um: most
+    of the light is launched into guided modes. FDTD sides (guided power reaching the lateral
+    monitors) within 3% of the exact guided power from the mode residues, for all orientations;
+    the escaped fraction within 3% for the out-of-plane and parallel emitters. The normal emitter
+    sends under 1% of its light out (0.008 exact); there the FDTD is still 14% low at 90 points
+    per um, so its top is not asserted (README, validation).
+
+    A thin chip on a mirror is badly conditioned (the efficiency moves by several percent per nm
+    of thickness) and converges slowly: 90 points per um here, where 60 leaves the out-of-plane
+    value +3.9% high through grid dispersion."""
+    data = {"light": {"wavelength": 1.0}, "chip": {"index": 3.3, "thickness": 0.6, "back": "mirror"},
+            "emitter": {"depth": 0.25, "orientation": "isotropic"}, "grid": {"resolution": 90}}
+    summary = run_case(data)
+    exact = summary["reference"]
+    for job in summary["jobs"]:
+        name = job["orientation"]
+        one = planar(parse_case({**data, "emitter": {"depth": 0.25, "orientation": name}}), dim=2, modes=True)
+        ours, ref = job["budget"]["sides"], one["budget"]["sides"]
+        assert ours == pytest.approx(ref, rel=0.03), f"{name} sides: FDTD {ours:.4f} vs exact guided {ref:.4f}"
+        if name != "normal":
+            ours, ref = job["efficiency"], exact["by_orientation"][name]
+            assert ours == pytest.approx(ref, rel=0.03), f"{name}: FDTD {ours:.5f} vs exact {ref:.5f}"
