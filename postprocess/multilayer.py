@@ -117,10 +117,10 @@ class Stack:
 
     @property
     def lossless(self):
-        lossy = [self.chip] + [n for n, _ in self.films]
-        if self.back in ("metal", "substrate"):
-            lossy.append(self.back_index)
-        return all(complex(n).imag == 0 for n in lossy) and self.back != "metal"
+        materials = [self.chip] + [n for n, _ in self.films]
+        if self.back == "substrate":
+            materials.append(self.back_index)
+        return all(complex(n).imag == 0 for n in materials) and self.back != "metal"
 
 
 def complex_index(index, alpha_per_um, wavelength):
@@ -262,8 +262,6 @@ def _emission_path(stack, k0, depth, wavelength):
         if stack.back == "metal" and abs(eps_b + eps_c) > 1e-3:
             k_hi = max(k_hi, min(abs(k0 * np.sqrt(eps_b * eps_c / (eps_b + eps_c))), 20 * k_hi))
     nearest = min(depth, stack.thickness - depth) if stack.back != "open" else depth
-    if stack.films:
-        nearest = min(nearest, depth)
     tail = k_hi * 1.2 + 20.0 / nearest
     b = 0.2 * k0
     fr = _fringes(stack, wavelength, depth)
@@ -354,7 +352,7 @@ def emitter(stack, depth, wavelength, orientation, dim=2, angles=None, modes=Fal
     modes : bool
         Find the guided modes of a lossless stack and the power launched into
         them from the residues at their poles (an independent check of the
-        budget, reported as ``balance_error``; costs about ten times more).
+        budget, reported as ``balance_error``; costs about 25 times more).
         Without it, ``sides`` of a lossless stack is emitted - top - bottom.
 
     Returns
@@ -363,12 +361,13 @@ def emitter(stack, depth, wavelength, orientation, dim=2, angles=None, modes=Fal
         ``emission`` (emitted / bulk power of the same emitter in lossless
         chip material), and as fractions of the emitted power: ``efficiency``
         (= top), ``budget`` {top, bottom, sides, absorbed}; ``balance_error``
-        (lossless stacks with ``modes``, else None); ``guided_modes``
-        (with ``modes``: {"s": [...], "p": [...]}, effective indices of the
-        guided modes that the emitter excites, by polarisation); with ``angles``, ``intensity``: escaped power
-        per degree of ambient angle, per unit emitted power (2-D: per signed
-        angle, so both sides of the normal add up to the top fraction; 3-D: per
-        degree of polar angle, summed over azimuth).
+        (lossless stacks with ``modes``, else None); ``guided_modes`` (with
+        ``modes``: {"s": [...], "p": [...]}, effective indices of the guided
+        modes that the emitter excites, by polarisation); with ``angles``,
+        ``intensity``: escaped power per degree of ambient angle, per unit
+        emitted power (2-D: per signed angle, so both sides of the normal add
+        up to the top fraction; 3-D: per degree of polar angle, summed over
+        azimuth).
     """
     parts = _PARTS[dim][orientation]
     k0 = 2 * np.pi / wavelength
@@ -393,18 +392,10 @@ def emitter(stack, depth, wavelength, orientation, dim=2, angles=None, modes=Fal
         a, w = _amplitude_weight(dim, pol, sigma, k0, k_ref, z, c["kz"])
         emission += 2 * float(np.real(np.sum(wz * w * a ** 2 * c["q"] * c["rho"])))
 
-        c = _cavity(stack, pol, sigma, k0, xt.astype(complex), depth)
-        a, w = _amplitude_weight(dim, pol, sigma, k0, k_ref, xt, c["kz"])
-        q_amb = _q(pol, stack.ambient, _kz(stack.ambient, k0, xt))
-        density = np.real(w * np.abs(a * c["T"]) ** 2 * np.real(q_amb))
-        top += float(np.sum(wt * density))
+        top += float(np.sum(wt * _escaping(stack, pol, sigma, dim, k0, k_ref, xt, depth)))
         if angles is not None:
             theta = np.radians(np.asarray(angles, dtype=float))
-            kappa = k_amb * np.sin(theta)
-            cc = _cavity(stack, pol, sigma, k0, kappa.astype(complex), depth)
-            aa, ww = _amplitude_weight(dim, pol, sigma, k0, k_ref, kappa, cc["kz"])
-            qa = _q(pol, stack.ambient, _kz(stack.ambient, k0, kappa))
-            per_rad = np.real(ww * np.abs(aa * cc["T"]) ** 2 * np.real(qa)) * k_amb * np.cos(theta)
+            per_rad = _escaping(stack, pol, sigma, dim, k0, k_ref, k_amb * np.sin(theta), depth) * k_amb * np.cos(theta)
             spectrum = spectrum + per_rad * np.pi / 180 / (2 if dim == 2 else 1)
         bottom += _bottom(stack, pol, sigma, dim, k0, k_ref, depth, fr)
 
@@ -431,6 +422,15 @@ def emitter(stack, depth, wavelength, orientation, dim=2, angles=None, modes=Fal
     return result
 
 
+def _escaping(stack, pol, sigma, dim, k0, k_ref, kappa, depth):
+    """Escaped power per d kappa (fraction of the bulk power) at real kappa below the ambient's k."""
+    kappa = np.asarray(kappa, dtype=float)
+    c = _cavity(stack, pol, sigma, k0, kappa.astype(complex), depth)
+    a, w = _amplitude_weight(dim, pol, sigma, k0, k_ref, kappa, c["kz"])
+    q_amb = _q(pol, stack.ambient, _kz(stack.ambient, k0, kappa))
+    return w * np.abs(a * c["T"]) ** 2 * np.real(q_amb)
+
+
 def _bottom(stack, pol, sigma, dim, k0, k_ref, depth, fr):
     """Power through the back side: into an open chip below, or into a substrate."""
     if stack.back in ("mirror", "metal"):
@@ -438,12 +438,11 @@ def _bottom(stack, pol, sigma, dim, k0, k_ref, depth, fr):
     if stack.back == "open":
         if not math.isfinite(stack.thickness) and complex(stack.chip).imag > 0:
             return 0.0  # an absorbing half-space swallows all downward light
-        n_b, kb = stack.chip, complex(stack.chip).real * k0
+        kb = complex(stack.chip).real * k0
         lossy = complex(stack.chip).imag > 0
         upper = kb if not lossy else kb * 1.2 + 20.0 / max(stack.thickness - depth, 1e-9)
     else:
-        n_b, kb = stack.back_index, complex(stack.back_index).real * k0
-        upper = kb
+        kb = upper = complex(stack.back_index).real * k0
     x, w_x = _real_interval(0.0, upper, [kb, stack.ambient * k0], fr)
     c = _cavity(stack, pol, sigma, k0, x.astype(complex), depth)
     a, w = _amplitude_weight(dim, pol, sigma, k0, k_ref, x, c["kz"])
