@@ -34,24 +34,34 @@ JOSA 72, 899 (1982)) and sin theta_c = n_a / n in 2-D (derived here, weight
 cos theta dtheta).
 
 Multi-pass model of a randomising top over a chip of thickness w,
-intensity absorption alpha, back reflectivity R (derived here in the
-manner of Yablonovitch 1982): each arrival at the top lets a fraction p
-escape (p from above), the rest is randomised and crosses the chip down and
-back up, surviving R t^2, where t is the transmittance of Lambertian light
-through thickness w: t = 2 E_3(alpha w) in 3-D (E_n the exponential
-integral) and integral_0^{pi/2} cos theta e^{-alpha w / cos theta} dtheta
-in 2-D. Light emitted at depth d reaches the top first with
-f0 = 1/2 tau(alpha d) + 1/2 tau(alpha (w - d)) R t, where tau is the
-transmittance of isotropic emission through a thickness (E_2 in 3-D,
-(2/pi) integral_0^{pi/2} e^{-x / cos theta} dtheta in 2-D). Summing the
-geometric series of passes:
+intensity absorption alpha, specular back side of reflectivity R (derived
+here in the manner of Yablonovitch 1982). Every arrival at the top is
+randomised into a Lambertian direction: inside the escape cone it leaves
+(probability p above, with no interface loss), outside it goes down in that
+direction, is reflected specularly and comes back up along the same angle,
+surviving S = R t_out(2 alpha w), where t_out(x) is the mean of
+e^{-x / cos theta} over the Lambertian directions outside the cone:
 
-    eta = f0 p / (1 - (1 - p) R t^2)
+    3-D: t_out(x) = integral_tc^{pi/2} cos sin e^{-x/cos} dtheta / (cos^2 tc / 2)
+    2-D: t_out(x) = integral_tc^{pi/2} cos e^{-x/cos} dtheta / (1 - sin tc)
 
-Weak absorption with a perfect back (R = 1, alpha w << 1): t^2 ~ 1 - 4 alpha w
-(3-D) or 1 - pi alpha w (2-D), f0 ~ 1, so
-eta ~ 1 / (1 + 4 n^2 alpha w / n_a^2) (3-D, the 4 n^2 of Yablonovitch 1982)
-and eta ~ 1 / (1 + pi n alpha w / n_a) (2-D, derived here).
+Light emitted isotropically at depth d arrives at the top first with
+f0 = 1/2 tau(alpha d) + 1/2 R tau(alpha (2 w - d)) (half goes up, half goes
+down and comes back specularly), tau being the transmittance of isotropic
+emission through a thickness: E_2 in 3-D (the exponential integral),
+(2/pi) integral_0^{pi/2} e^{-x / cos theta} dtheta in 2-D. Summing the passes:
+
+    eta = f0 p / (1 - (1 - p) S)
+
+Weak absorption with a perfect back (R = 1, alpha w << 1): the mean of
+1/cos theta outside the cone is 2 / cos tc (3-D) or (pi/2 - tc) / (1 - sin tc)
+(2-D), so
+
+    3-D: eta ~ 1 / (1 + 4 (n/n_a)^2 cos(tc) alpha w)
+    2-D: eta ~ 1 / (1 + 2 (n/n_a) (pi/2 - tc) alpha w)
+
+and for large n (cos tc -> 1, tc -> 0) these become Yablonovitch's
+1 / (1 + 4 n^2 alpha w) and 1 / (1 + pi n alpha w).
 """
 
 import numpy as np
@@ -123,14 +133,28 @@ def lambertian_escape(n_chip, n_ambient=1.0, dim=3):
     return min(1.0, s ** 2 if dim == 3 else s)
 
 
+def _lambertian_mean(x, lower, dim):
+    """Mean of e^{-x / cos theta} over Lambertian directions with theta from ``lower`` to pi/2."""
+    if dim == 3:
+        num = integrate.quad(lambda th: np.cos(th) * np.sin(th) * np.exp(-x / max(np.cos(th), 1e-300)),
+                             lower, np.pi / 2, epsabs=1e-14, epsrel=1e-12)[0]
+        return num / (np.cos(lower) ** 2 / 2)
+    num = integrate.quad(lambda th: np.cos(th) * np.exp(-x / max(np.cos(th), 1e-300)), lower, np.pi / 2,
+                         epsabs=1e-14, epsrel=1e-12)[0]
+    return num / (1 - np.sin(lower))
+
+
 def lambertian_transmittance(attenuation, dim=3):
-    """Transmittance t of Lambertian light through an absorbing thickness; ``attenuation`` = alpha * w."""
+    """Transmittance of Lambertian light through an absorbing thickness; ``attenuation`` = alpha * w.
+
+    3-D: 2 E_3(alpha w); 2-D: integral_0^{pi/2} cos theta e^{-alpha w / cos theta} dtheta.
+    """
     x = float(attenuation)
     if x == 0:
         return 1.0
     if dim == 3:
         return float(2 * special.expn(3, x))
-    return integrate.quad(lambda th: np.cos(th) * np.exp(-x / max(np.cos(th), 1e-300)), 0, np.pi / 2)[0]
+    return _lambertian_mean(x, 0.0, 2)
 
 
 def isotropic_transmittance(attenuation, dim=3):
@@ -140,7 +164,16 @@ def isotropic_transmittance(attenuation, dim=3):
         return 1.0
     if dim == 3:
         return float(special.expn(2, x))
-    return 2 / np.pi * integrate.quad(lambda th: np.exp(-x / max(np.cos(th), 1e-300)), 0, np.pi / 2)[0]
+    return 2 / np.pi * integrate.quad(lambda th: np.exp(-x / max(np.cos(th), 1e-300)), 0, np.pi / 2,
+                                      epsabs=1e-14, epsrel=1e-12)[0]
+
+
+def round_trip(n_chip, n_ambient, alpha_per_um, thickness, back_reflectivity, dim=3):
+    """S: survival of randomised light sent down outside the escape cone and back (see the module text)."""
+    if alpha_per_um == 0:
+        return back_reflectivity
+    tc = critical_angle(n_chip, n_ambient)
+    return back_reflectivity * _lambertian_mean(2 * alpha_per_um * thickness, tc, dim)
 
 
 def multipass(n_chip, n_ambient, alpha_per_um, thickness, depth, back_reflectivity, dim=3, escape=None):
@@ -151,27 +184,28 @@ def multipass(n_chip, n_ambient, alpha_per_um, thickness, depth, back_reflectivi
     alpha_per_um : float
         Intensity attenuation coefficient of the chip, 1/µm.
     thickness, depth : float
-        Chip thickness and emitter depth, µm (``thickness`` may be ``inf``
-        only with a back reflectivity of 0).
+        Chip thickness and emitter depth, µm (``thickness`` may be ``inf``:
+        then nothing comes back from below).
     back_reflectivity : float
-        Lambertian-averaged reflectivity of the back side, 0..1.
+        Reflectivity R of the (specular) back side, 0..1.
     escape : float, optional
         Escape probability per arrival at the top; default
         :func:`lambertian_escape`.
     """
     p = lambertian_escape(n_chip, n_ambient, dim) if escape is None else escape
     up = isotropic_transmittance(alpha_per_um * depth, dim)
-    if not np.isfinite(thickness):
+    if not np.isfinite(thickness) or back_reflectivity == 0:
         return 0.5 * up * p
-    t = lambertian_transmittance(alpha_per_um * thickness, dim)
-    down = isotropic_transmittance(alpha_per_um * (thickness - depth), dim)
-    first = 0.5 * up + 0.5 * down * back_reflectivity * t
-    return first * p / (1 - (1 - p) * back_reflectivity * t ** 2)
+    back = isotropic_transmittance(alpha_per_um * (2 * thickness - depth), dim)
+    first = 0.5 * up + 0.5 * back_reflectivity * back
+    survive = round_trip(n_chip, n_ambient, alpha_per_um, thickness, back_reflectivity, dim)
+    return first * p / (1 - (1 - p) * survive)
 
 
 def weak_absorption_limit(n_chip, n_ambient, alpha_per_um, thickness, dim=3):
     """The multi-pass efficiency for R = 1 and alpha * w << 1 (see the module text)."""
     aw = alpha_per_um * thickness
+    tc = critical_angle(n_chip, n_ambient)
     if dim == 3:
-        return 1 / (1 + 4 * (n_chip / n_ambient) ** 2 * aw)
-    return 1 / (1 + np.pi * (n_chip / n_ambient) * aw)
+        return 1 / (1 + 4 * (n_chip / n_ambient) ** 2 * np.cos(tc) * aw)
+    return 1 / (1 + 2 * (n_chip / n_ambient) * (np.pi / 2 - tc) * aw)
