@@ -189,8 +189,10 @@ def response(stack, pol, wavelength, theta):
     gamma_up, tau = _up(stack, pol, k0, kappa, q)
     gamma_down, _ = _down(stack, pol, k0, kappa, q)
     q_amb = _q(pol, stack.ambient, _kz(stack.ambient, k0, kappa))
-    return {"R_up": np.abs(gamma_up) ** 2, "T_up": np.abs(tau) ** 2 * np.real(q_amb) / np.real(q),
-            "R_down": np.abs(gamma_down) ** 2}
+    flux_in = np.real(q)
+    transmitted = np.abs(tau) ** 2 * np.real(q_amb)
+    T_up = np.divide(transmitted, flux_in, out=np.zeros_like(flux_in), where=flux_in > 0)  # 0 at grazing
+    return {"R_up": np.abs(gamma_up) ** 2, "T_up": T_up, "R_down": np.abs(gamma_down) ** 2}
 
 
 def _cavity(stack, pol, sigma, k0, kappa, depth):
