@@ -41,6 +41,7 @@ test: setup
 
 bench: setup
 	@$(PY) bench/bench_planar.py
+	@$(PY) bench/bench_rays.py
 	@$(PY) bench/bench_runner.py
 
 clean:

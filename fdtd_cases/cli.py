@@ -4,6 +4,8 @@
     outcouple run CASE [-o FILE.h5] [--json] [--workers N] [--quiet]
     outcouple show FILE.h5 [--json]
     outcouple reference CASE [--json]
+    outcouple rays CASE [--rays N] [--lateral absorbing|periodic] [--seed S] [--json]
+    outcouple compare CASE --vary KEY=START:STOP:COUNT [--tolerance T] [--rays N] [-o DIR] [--json]
 
 Bad input: one message naming the file and key on standard error, exit
 code 2, no traceback, no result file.
@@ -155,6 +157,81 @@ def cmd_reference(args):
     return 0
 
 
+PERIODIC = ("flat", "grating", "triangle", "sine")
+
+
+def cmd_rays(args):
+    from postprocess import raytrace
+
+    case, _ = load_case(args.case)
+    layout = make_layout(case, source=args.case, fdtd=False)
+    if args.lateral == "periodic" and case.surface.pattern not in PERIODIC:
+        raise CaseError("command line", "--lateral", f"periodic needs a periodic pattern ({', '.join(PERIODIC)}), "
+                        f"not {case.surface.pattern!r}")
+    if not args.quiet:
+        print(f"tracing {args.rays} rays per job of {args.case}", file=sys.stderr)
+    started = time.perf_counter()
+    result = raytrace.run_case(case, layout, rays=args.rays, lateral=args.lateral, seed=args.seed)
+    elapsed = time.perf_counter() - started
+    result["lateral"] = args.lateral
+    result["events_per_second"] = result["events"] / elapsed if elapsed > 0 else None
+    if args.json:
+        print(json.dumps(result, indent=2))
+        return 0
+    print(f"{args.case}: ray optics, {result['rays']:,} rays, {result['events']:,} interactions in {elapsed:.1f} s "
+          f"({args.lateral} lateral boundaries)")
+    err = result["statistical_error"]
+    print(f"\n  extraction efficiency   {result['efficiency']:.4f} +/- {err:.4f} (one standard error)")
+    for name, value in result["by_orientation"].items():
+        print(f"  {name:>22}  {value:.4f}")
+    b = result["budget"]
+    print("\n  budget (fractions of the emitted power):")
+    print("    " + "   ".join(f"{k} {b[k]:.4f}" for k in ("top", "bottom", "sides", "absorbed", "truncated")))
+    need = result["rays_for_half_percent"]
+    if need:
+        print(f"  rays per job for a 0.5% statistical error: about {need:,}")
+    print("\n  ray optics: no interference, no diffraction, no change of the emitter's emission by its surroundings")
+    return 0
+
+
+def cmd_compare(args):
+    import tomllib
+    from . import compare
+
+    key, values = compare.parse_vary(args.vary)
+    case, text = load_case(args.case)
+    data = tomllib.loads(text)
+    points = compare.prepare(data, args.case, key, values)
+    out_dir = Path(args.output) if args.output else Path(Path(args.case).stem + "_compare")
+    if not args.quiet:
+        jobs = sum(len(plan_jobs(c, lay)) for _, c, lay in points)
+        print(f"comparing {len(points)} values of {key}: {jobs} FDTD job(s), then rays", file=sys.stderr)
+    rows = compare.run(points, key, args.tolerance, args.rays, args.workers, not args.quiet)
+    csv_path, png_path = compare.write_outputs(rows, key, out_dir, f"{Path(args.case).name}: {key}")
+    if args.json:
+        print(json.dumps({"key": key, "tolerance": args.tolerance, "rows": rows, "csv": str(csv_path),
+                          "plot": str(png_path)}, indent=2))
+        return 0
+    print(f"{args.case}: full wave against ray optics over {key} (tolerance {100 * args.tolerance:g}%)")
+    print(f"\n  {key:>16}  {'/ chip wl':>9}  {'FDTD':>8}  {'rays':>8}  {'+/-':>7}  {'diff':>8}")
+    for r in rows:
+        flag = "  differ" if r["differs"] else ""
+        print(f"  {r[key]:>16.4g}  {r[key] / r['chip_wavelength']:>9.3f}  {r['fdtd']:>8.4f}  {r['rays']:>8.4f}  "
+              f"{r['rays_error']:>7.4f}  {100 * r['difference']:>+7.1f}%{flag}")
+    print(f"\n  written: {csv_path}, {png_path}")
+    return 0
+
+
+def _fraction(text):
+    try:
+        value = float(text)
+    except ValueError:
+        value = -1.0
+    if not 0 < value < 1:
+        raise argparse.ArgumentTypeError(f"must be a fraction between 0 and 1, not {text!r}")
+    return value
+
+
 def _positive_int(text):
     try:
         value = int(text)
@@ -194,6 +271,25 @@ def build_parser():
     p.add_argument("case", help="TOML case file")
     p.add_argument("--json", action="store_true", help="print the values as JSON")
     p.set_defaults(func=cmd_reference)
+    p = sub.add_parser("rays", help="ray-optics extraction on the same geometry (Monte Carlo, no FDTD)")
+    p.add_argument("case", help="TOML case file")
+    p.add_argument("--rays", type=_positive_int, default=20000, help="rays per job (default 20000)")
+    p.add_argument("--lateral", choices=("absorbing", "periodic"), default="absorbing",
+                   help="lateral boundaries: absorbing like the FDTD's (default) or periodic")
+    p.add_argument("--seed", type=int, default=0, help="seed of the random numbers (default 0)")
+    p.add_argument("--json", action="store_true", help="print the summary as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress message")
+    p.set_defaults(func=cmd_rays)
+    p = sub.add_parser("compare", help="FDTD against ray optics over a range of one case parameter")
+    p.add_argument("case", help="TOML case file")
+    p.add_argument("--vary", required=True, help="KEY=START:STOP:COUNT, KEY a dotted case key such as surface.period")
+    p.add_argument("--tolerance", type=_fraction, default=0.05, help="relative difference that counts (default 0.05)")
+    p.add_argument("--rays", type=_positive_int, default=20000, help="rays per job (default 20000)")
+    p.add_argument("-o", "--output", help="output folder (default: CASE's name with _compare)")
+    p.add_argument("--workers", type=_positive_int, help="FDTD worker processes (default: number of cores)")
+    p.add_argument("--json", action="store_true", help="print the table as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(func=cmd_compare)
     return parser
 
 

@@ -163,11 +163,11 @@ def _indices(case):
     return found
 
 
-def _films(case, source, resolution, warnings):
-    """Film layers above y = 0 (flat surfaces only), bottom to top."""
+def _films(case, source, resolution, warnings, fdtd=True):
+    """Film layers above y = 0 (the FDTD models them on flat surfaces only), bottom to top."""
     if not case.film:
         return ()
-    if case.surface.pattern != "flat":
+    if case.surface.pattern != "flat" and fdtd:
         raise CaseError(source, "film", "films on a patterned surface are not modelled by the FDTD yet; "
                         "'outcouple reference' gives the flat-surface baseline with them")
     layers, y = [], 0.0
@@ -184,8 +184,11 @@ def _period(surface):
     return getattr(surface, "period", None) or getattr(surface, "correlation", 0.0)
 
 
-def make_layout(case, source="case"):
+def make_layout(case, source="case", fdtd=True):
     """Derive the grid-aligned domain of ``case`` and check what needs the grid.
+
+    With ``fdtd=False`` (the ray tracer's use of the same domain) the cases
+    only the FDTD cannot model yet (metal backs, films on a pattern) pass.
 
     Raises
     ------
@@ -244,10 +247,10 @@ def make_layout(case, source="case"):
             raise CaseError(source, f"emitter.x[{i}]", f"is {x:g} µm, outside the domain: |x| must be at most "
                             f"{half - contour - 2 * cell:.4g} µm (grid.width = {width:g} µm)")
 
-    if case.chip.back == "metal":
+    if case.chip.back == "metal" and fdtd:
         raise CaseError(source, "chip.back", 'is "metal": the FDTD runner does not model metal back sides yet; '
                         "'outcouple reference' gives the exact planar result")
-    films = _films(case, source, resolution, warnings)
+    films = _films(case, source, resolution, warnings, fdtd)
     film_top = films[-1][1] if films else 0.0
     y_top = snap_up(film_top + max(TOP_GAP * lam_max, 2 * cell), resolution)
     y_cell_top = snap_up(film_top + AMBIENT_GAP * lam_max, resolution) + pml

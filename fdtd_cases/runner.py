@@ -38,7 +38,7 @@ def _run_one(case, layout, job):
 
 
 def run_jobs(case, layout, jobs, workers=None, progress=True):
-    """Run ``jobs`` and return their raw results in the same order.
+    """Run ``jobs`` of one case and return their raw results in the same order.
 
     Parameters
     ----------
@@ -47,17 +47,23 @@ def run_jobs(case, layout, jobs, workers=None, progress=True):
     progress : bool
         Show a progress bar on standard error.
     """
-    workers = max(1, min(workers or os.cpu_count() or 1, len(jobs)))
+    return run_many([(case, layout, job) for job in jobs], workers, progress)
+
+
+def run_many(items, workers=None, progress=True):
+    """Run (case, layout, job) items, possibly of several cases, in one pool; results in order."""
+    workers = max(1, min(workers or os.cpu_count() or 1, len(items)))
     context = multiprocessing.get_context("spawn")
-    results = [None] * len(jobs)
-    bar = tqdm(total=len(jobs), desc="FDTD jobs", unit="job", file=sys.stderr, disable=not progress,
+    results = [None] * len(items)
+    bar = tqdm(total=len(items), desc="FDTD jobs", unit="job", file=sys.stderr, disable=not progress,
                bar_format="{desc}: {n_fmt}/{total_fmt} |{bar}| {elapsed} elapsed, {remaining} left")
     with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_quiet_worker) as pool:
-        futures = {pool.submit(_run_one, case, layout, job): i for i, job in enumerate(jobs)}
+        futures = {pool.submit(_run_one, *item): i for i, item in enumerate(items)}
         for future in as_completed(futures):
             i = futures[future]
             results[i] = future.result()
-            bar.set_postfix_str(f"{jobs[i]['orientation']} x={jobs[i]['x']:g}: {results[i]['wall_time']:.1f} s")
+            job = items[i][2]
+            bar.set_postfix_str(f"{job['orientation']} x={job['x']:g}: {results[i]['wall_time']:.1f} s")
             bar.update()
     bar.close()
     return results

@@ -73,3 +73,28 @@ def plot_spectra(series, path, reference=None):
     fig.tight_layout()
     fig.savefig(path)
     plt.close(fig)
+
+
+def plot_comparison(key, values, scale, fdtd, rays, errors, differs, path, title=""):
+    """FDTD and ray-optics efficiency against a swept parameter, in units of the chip wavelength.
+
+    ``scale`` is the wavelength in the chip (µm); points where the two
+    differ by more than the tolerance are ringed.
+    """
+    x = np.asarray(values) / scale
+    fig, ax = plt.subplots(figsize=(6.4, 4), dpi=120)
+    ax.plot(x, fdtd, marker="o", color=MONITOR_COLOUR, label="full wave (FDTD)")
+    ax.errorbar(x, rays, yerr=2 * np.asarray(errors), marker="s", color=EMITTER_COLOUR, capsize=3,
+                label="ray optics (2 standard errors)")
+    bad = np.asarray(differs, dtype=bool)
+    if bad.any():
+        ax.scatter(x[bad], np.asarray(fdtd)[bad], s=220, facecolors="none", edgecolors="#e0a100", linewidths=1.6,
+                   label="differ by more than the tolerance", zorder=5)
+    ax.set_xlabel(f"{key} / wavelength in the chip")
+    ax.set_ylabel("extraction efficiency")
+    ax.set_title(title or f"ray optics against full wave: {key}")
+    ax.grid(alpha=0.3)
+    ax.legend(fontsize=8)
+    fig.tight_layout()
+    fig.savefig(path)
+    plt.close(fig)

@@ -1,0 +1,110 @@
+"""``outcouple compare``: full wave (FDTD) against ray optics over one parameter.
+
+Each value of the varied key makes one case; every case is validated, with
+its grid, before anything runs. The FDTD jobs of all values share one pool
+of workers; the ray tracer then runs on the same domain (its absorbing
+lateral boundaries where the FDTD has its side monitors). The table, a CSV
+and a plot of both efficiencies against the parameter in units of the
+wavelength in the chip go to the output folder, the CSV and plot written
+only when everything has run.
+"""
+
+import copy
+import csv
+import math
+import os
+from pathlib import Path
+
+import numpy as np
+
+from .case import parse_case
+from .errors import CaseError
+from .layout import make_layout
+from .runner import plan_jobs, run_many
+
+
+def parse_vary(text):
+    """``KEY=START:STOP:COUNT`` -> (key, values)."""
+    key, _, rest = text.partition("=")
+    parts = rest.split(":")
+    if not key or len(parts) != 3:
+        raise CaseError("command line", "--vary", f"expects KEY=START:STOP:COUNT, got {text!r}")
+    try:
+        start, stop, count = float(parts[0]), float(parts[1]), int(parts[2])
+    except ValueError:
+        raise CaseError("command line", "--vary", f"START and STOP must be numbers and COUNT a whole number: {text!r}") from None
+    if count < 2:
+        raise CaseError("command line", "--vary", f"COUNT must be at least 2, got {count}")
+    if not (math.isfinite(start) and math.isfinite(stop)) or start == stop:
+        raise CaseError("command line", "--vary", f"START and STOP must be finite and differ: {text!r}")
+    return key, np.linspace(start, stop, count)
+
+
+def case_with(data, key, value, source):
+    """The case ``data`` with the dotted ``key`` set to ``value``, validated."""
+    parts = key.split(".")
+    changed = copy.deepcopy(data)
+    table = changed
+    for part in parts[:-1]:
+        if not isinstance(table.get(part, {}), dict):
+            raise CaseError(source, key, "is not a key inside a table of the case (arrays of tables cannot be varied)")
+        table = table.setdefault(part, {})
+    table[parts[-1]] = float(value)
+    return parse_case(changed, source=f"{source} (with {key} = {value:g})")
+
+
+def prepare(data, source, key, values):
+    """Validate every point: [(value, case, layout), ...]."""
+    points = []
+    for value in values:
+        case = case_with(data, key, value, source)
+        points.append((float(value), case, make_layout(case, source=f"{source} (with {key} = {value:g})")))
+    return points
+
+
+def run(points, key, tolerance, rays, workers, progress):
+    """FDTD and rays for every point; rows of the comparison table."""
+    from postprocess.analysis import analyse
+    from postprocess import raytrace
+
+    items = [(case, layout, job) for _, case, layout in points for job in plan_jobs(case, layout)]
+    raw = run_many(items, workers, progress)
+    rows, at = [], 0
+    for value, case, layout in points:
+        jobs = plan_jobs(case, layout)
+        merged = [{**job, **result} for job, result in zip(jobs, raw[at:at + len(jobs)])]
+        at += len(jobs)
+        wave = analyse(case, merged, layout.wavelengths, layout.resolution)
+        ray = raytrace.run_case(case, layout, rays=rays)
+        difference = ray["efficiency"] / wave["efficiency"] - 1 if wave["efficiency"] > 0 else math.inf
+        rows.append({
+            key: value,
+            "chip_wavelength": case.light.wavelength / case.chip.index,
+            "fdtd": wave["efficiency"], "rays": ray["efficiency"], "rays_error": ray["statistical_error"],
+            "difference": difference, "differs": bool(abs(difference) > tolerance),
+            "fdtd_budget": wave["budget"], "rays_budget": ray["budget"],
+        })
+    return rows
+
+
+def write_outputs(rows, key, out_dir, title):
+    """compare.csv and compare.png in ``out_dir`` (each written under a temporary name first)."""
+    from postprocess.plots import plot_comparison
+
+    out_dir = Path(out_dir)
+    out_dir.mkdir(parents=True, exist_ok=True)
+    scale = rows[0]["chip_wavelength"]
+    columns = [key, f"{key}_over_chip_wavelength", "fdtd", "rays", "rays_error", "difference", "differs"]
+    partial = out_dir / "compare.csv.partial"
+    with open(partial, "w", newline="") as f:
+        writer = csv.writer(f)
+        writer.writerow(columns)
+        for r in rows:
+            writer.writerow([f"{r[key]:.6g}", f"{r[key] / scale:.6g}", f"{r['fdtd']:.6f}", f"{r['rays']:.6f}",
+                             f"{r['rays_error']:.6f}", f"{r['difference']:+.5f}", int(r["differs"])])
+    picture = out_dir / "compare.partial.png"
+    plot_comparison(key, [r[key] for r in rows], scale, [r["fdtd"] for r in rows], [r["rays"] for r in rows],
+                    [r["rays_error"] for r in rows], [r["differs"] for r in rows], picture, title)
+    os.replace(partial, out_dir / "compare.csv")
+    os.replace(picture, out_dir / "compare.png")
+    return out_dir / "compare.csv", out_dir / "compare.png"
