@@ -46,9 +46,10 @@ def case_with(data, key, value, source):
     changed = copy.deepcopy(data)
     table = changed
     for part in parts[:-1]:
-        if not isinstance(table.get(part, {}), dict):
-            raise CaseError(source, key, "is not a key inside a table of the case (arrays of tables cannot be varied)")
-        table = table.setdefault(part, {})
+        table = table.get(part) if isinstance(table, dict) else None
+    if not isinstance(table, dict) or parts[-1] not in table or isinstance(table[parts[-1]], (dict, list)):
+        raise CaseError(source, key, "is not set in the case file; compare varies a number the file already "
+                        "gives (a dotted key such as surface.period; arrays of tables cannot be varied)")
     table[parts[-1]] = float(value)
     return parse_case(changed, source=f"{source} (with {key} = {value:g})")
 
