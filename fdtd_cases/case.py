@@ -14,7 +14,7 @@ Nothing deeper in the numerics re-checks input.
 import math
 import tomllib
 from pathlib import Path
-from typing import Annotated, Literal, Optional, Union, get_args, get_origin
+from typing import Annotated, Any, Literal, Optional, Union, get_args, get_origin
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
@@ -302,6 +302,8 @@ class Case(_Table):
     surface: Surface = Flat(pattern="flat")
     emitter: Emitter
     grid: Grid = Grid()
+    sweep: Optional[dict[str, Any]] = None
+    """Read by ``outcouple sweep`` (fdtd_cases.sweep validates it); check and run use the base case."""
 
 
 def _table_class(loc):

@@ -6,6 +6,8 @@
     outcouple reference CASE [--json]
     outcouple rays CASE [--rays N] [--lateral absorbing|periodic] [--seed S] [--json]
     outcouple compare CASE --vary KEY=START:STOP:COUNT [--tolerance T] [--rays N] [-o DIR] [--json]
+    outcouple sweep CASE --out DIR [--engine local] [--workers N] [--quiet]
+    outcouple status DIR | collect DIR | plot DIR [-o FILE.png]
 
 Bad input: one message naming the file and key on standard error, exit
 code 2, no traceback, no result file.
@@ -222,6 +224,76 @@ def cmd_compare(args):
     return 0
 
 
+def cmd_sweep(args):
+    import tomllib
+    from . import sweep
+
+    if args.engine != "local":
+        raise CaseError("command line", "--engine", f"{args.engine!r} is not available yet; this version runs "
+                        "sweeps with the local engine only")
+    case, text = load_case(args.case)
+    the_plan = sweep.plan(tomllib.loads(text), args.case)
+    out = Path(args.out)
+    if (out / sweep.PLAN).is_file():
+        old = sweep.read_plan(out)
+        if old["points"] != the_plan["points"]:
+            raise CaseError("command line", "--out", f"{out} holds a different sweep; use a new folder "
+                            "(job results are kept by id, so nothing valid would be lost, but the folder's "
+                            "plan would no longer describe them)")
+    sweep.write_plan(out, the_plan)
+    total = sum(len(p["jobs"]) for p in the_plan["points"])
+    _, counts, _ = sweep.status(out)
+    if not args.quiet:
+        print(f"sweep of {len(the_plan['points'])} point(s), {total} job(s): {counts['done']} already done, "
+              f"running {total - counts['done']}", file=sys.stderr)
+    ran = sweep.run_local(out, workers=args.workers, progress=not args.quiet)
+    _, counts, failed = sweep.status(out)
+    print(f"{out}: {counts['done']} of {total} job(s) done ({ran} run now), {counts['failed']} failed")
+    for values, job, reason in failed:
+        print(f"  failed: {job['id']} ({job['orientation']}, x = {job['x']:g}) at "
+              + ", ".join(f"{k} = {v:g}" for k, v in values.items()) + f": {reason}")
+    return 0 if not failed else 1
+
+
+def cmd_status(args):
+    from . import sweep
+
+    the_plan, counts, failed = sweep.status(args.dir)
+    total = sum(counts.values())
+    print(f"{args.dir}: {total} job(s): done {counts['done']}, running 0, failed {counts['failed']}, "
+          f"missing {counts['missing']} (local engine: nothing runs once 'sweep' has returned)")
+    for values, job, reason in failed:
+        print(f"  failed: {job['id']} ({job['orientation']}, x = {job['x']:g}) at "
+              + ", ".join(f"{k} = {v:g}" for k, v in values.items()) + f": {reason}")
+    return 0
+
+
+def cmd_collect(args):
+    from postprocess.collect import IncompleteSweep, collect
+    from . import sweep
+
+    the_plan = sweep.read_plan(args.dir)
+    try:
+        h5_path, csv_path, summaries = collect(args.dir, the_plan)
+    except IncompleteSweep as exc:
+        raise CaseError(args.dir, "", str(exc)) from None
+    print(f"{args.dir}: {len(summaries)} point(s) collected -> {h5_path}, {csv_path}")
+    return 0
+
+
+def cmd_plot(args):
+    from postprocess.collect import read_sweep
+    from postprocess.plots import plot_sweep
+
+    path = Path(args.dir) / "sweep.h5"
+    if not path.is_file():
+        raise CaseError(args.dir, "", "has no sweep.h5; run 'outcouple collect' first")
+    out = Path(args.output) if args.output else Path(args.dir) / "sweep.png"
+    plot_sweep(read_sweep(path), out)
+    print(f"{out}")
+    return 0
+
+
 def _fraction(text):
     try:
         value = float(text)
@@ -290,6 +362,22 @@ def build_parser():
     p.add_argument("--json", action="store_true", help="print the table as JSON")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_compare)
+    p = sub.add_parser("sweep", help="run (or resume) the sweep of a case's [sweep] table")
+    p.add_argument("case", help="TOML case file with a [sweep] table")
+    p.add_argument("--out", required=True, help="sweep folder (plan, one result file per job)")
+    p.add_argument("--engine", default="local", help="where jobs run: local (worker processes; the only one yet)")
+    p.add_argument("--workers", type=_positive_int, help="worker processes (default: number of cores)")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(func=cmd_sweep)
+    for name, func, text in (("status", cmd_status, "done / failed / missing jobs of a sweep folder"),
+                             ("collect", cmd_collect, "one data set (sweep.h5, sweep.csv) from a finished sweep")):
+        p = sub.add_parser(name, help=text)
+        p.add_argument("dir", help="sweep folder")
+        p.set_defaults(func=func)
+    p = sub.add_parser("plot", help="efficiency against one or two swept keys, from sweep.h5")
+    p.add_argument("dir", help="sweep folder (after collect)")
+    p.add_argument("-o", "--output", help="PNG file (default DIR/sweep.png)")
+    p.set_defaults(func=cmd_plot)
     return parser
 
 
@@ -308,6 +396,10 @@ def main(args=None):
     except KeyboardInterrupt:
         print("interrupted; no result file written", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        # The reader went away (for example `| head`): no traceback; silence the final flush too.
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
 
 
 if __name__ == "__main__":

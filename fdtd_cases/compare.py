@@ -42,6 +42,11 @@ def parse_vary(text):
 
 def case_with(data, key, value, source):
     """The case ``data`` with the dotted ``key`` set to ``value``, validated."""
+    return parse_case(with_value(data, key, value, source), source=f"{source} (with {key} = {value:g})")
+
+
+def with_value(data, key, value, source):
+    """A copy of the case dict ``data`` with the dotted ``key`` (one the file gives) set to ``value``."""
     parts = key.split(".")
     changed = copy.deepcopy(data)
     table = changed
@@ -51,7 +56,7 @@ def case_with(data, key, value, source):
         raise CaseError(source, key, "is not set in the case file; compare varies a number the file already "
                         "gives (a dotted key such as surface.period; arrays of tables cannot be varied)")
     table[parts[-1]] = float(value)
-    return parse_case(changed, source=f"{source} (with {key} = {value:g})")
+    return changed
 
 
 def prepare(data, source, key, values):

@@ -50,8 +50,14 @@ def run_jobs(case, layout, jobs, workers=None, progress=True):
     return run_many([(case, layout, job) for job in jobs], workers, progress)
 
 
-def run_many(items, workers=None, progress=True):
-    """Run (case, layout, job) items, possibly of several cases, in one pool; results in order."""
+def run_many(items, workers=None, progress=True, on_result=None, on_error=None):
+    """Run (case, layout, job) items, possibly of several cases, in one pool; results in order.
+
+    ``on_result(i, result)`` is called in this process as each item finishes
+    (a sweep writes its job file there); with ``on_error(i, exception)`` a
+    failed item is reported to it and its result is None, without it the
+    first failure is raised.
+    """
     workers = max(1, min(workers or os.cpu_count() or 1, len(items)))
     context = multiprocessing.get_context("spawn")
     results = [None] * len(items)
@@ -61,9 +67,18 @@ def run_many(items, workers=None, progress=True):
         futures = {pool.submit(_run_one, *item): i for i, item in enumerate(items)}
         for future in as_completed(futures):
             i = futures[future]
-            results[i] = future.result()
             job = items[i][2]
-            bar.set_postfix_str(f"{job['orientation']} x={job['x']:g}: {results[i]['wall_time']:.1f} s")
+            try:
+                results[i] = future.result()
+            except Exception as error:  # a failed job: reported per job when the caller asks for it
+                if on_error is None:
+                    raise
+                on_error(i, error)
+                bar.set_postfix_str(f"{job['orientation']} x={job['x']:g}: FAILED")
+            else:
+                if on_result is not None:
+                    on_result(i, results[i])
+                bar.set_postfix_str(f"{job['orientation']} x={job['x']:g}: {results[i]['wall_time']:.1f} s")
             bar.update()
     bar.close()
     return results

@@ -98,3 +98,31 @@ def plot_comparison(key, values, scale, fdtd, rays, errors, differs, path, title
     fig.tight_layout()
     fig.savefig(path)
     plt.close(fig)
+
+
+def plot_sweep(data, path, title=""):
+    """Efficiency against one swept key (line, with the flat-surface baseline dashed) or two (map).
+
+    ``data`` is :func:`postprocess.collect.read_sweep`'s output.
+    """
+    keys, eff, flat = data["keys"], np.asarray(data["efficiency"]), np.asarray(data["flat_baseline"])
+    fig, ax = plt.subplots(figsize=(6.4, 4.2), dpi=120)
+    if data["mode"] == "grid" and len(keys) == 2:
+        x, y = data["axes"][keys[1]], data["axes"][keys[0]]
+        mesh = ax.pcolormesh(x, y, eff, shading="nearest", cmap="magma")
+        fig.colorbar(mesh, ax=ax, label="extraction efficiency")
+        ax.set_xlabel(keys[1])
+        ax.set_ylabel(keys[0])
+        ax.set_title(title or f"extraction efficiency (flat baseline {flat.min():.3f} to {flat.max():.3f})")
+    else:
+        x = data["axes"][keys[0]]
+        ax.plot(x, eff.reshape(len(x), -1), marker="o", color=MONITOR_COLOUR, label="FDTD")
+        ax.plot(x, flat.reshape(len(x), -1), ls="--", color="k", lw=1, label="flat surface, exact")
+        ax.set_xlabel(keys[0])
+        ax.set_ylabel("extraction efficiency")
+        ax.grid(alpha=0.3)
+        ax.legend(fontsize=8)
+        ax.set_title(title or f"extraction efficiency against {keys[0]}")
+    fig.tight_layout()
+    fig.savefig(path)
+    plt.close(fig)

@@ -10,6 +10,19 @@ import pytest
 ROOT = Path(__file__).resolve().parent.parent
 CONFIGS = ROOT / "configs"
 
+SMALL_FLAT_CASE = """
+[light]
+wavelength = 1.0
+[chip]
+index = 2.0
+[emitter]
+depth = 0.5
+orientation = "out-of-plane"
+[grid]
+points_per_wavelength = 12
+"""
+"""A flat chip whose one FDTD job runs in about a second (commands end to end)."""
+
 
 def meep_available():
     try:

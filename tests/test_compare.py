@@ -5,19 +5,9 @@ import json
 
 import pytest
 
-from conftest import requires_meep, run_cli
+from conftest import SMALL_FLAT_CASE, requires_meep, run_cli
 
-CASE = """
-[light]
-wavelength = 1.0
-[chip]
-index = 2.0
-[emitter]
-depth = 0.5
-orientation = "out-of-plane"
-[grid]
-points_per_wavelength = 12
-"""
+CASE = SMALL_FLAT_CASE
 
 
 @requires_meep

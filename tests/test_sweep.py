@@ -1,0 +1,83 @@
+"""Sweeps with the local engine: plan, job files, resume, collect, plot, bad input."""
+
+import csv
+import json
+
+import h5py
+import pytest
+
+from conftest import SMALL_FLAT_CASE, requires_meep, run_cli
+
+BASE = SMALL_FLAT_CASE
+SWEEP = BASE + """
+[sweep]
+"emitter.depth" = [0.4, 0.6]
+"chip.index" = { start = 2.0, stop = 2.4, count = 2 }
+"""
+
+
+@requires_meep
+@pytest.mark.fdtd
+def test_local_sweep_resume_collect_and_plot(tmp_path):
+    """A 2 x 2 grid sweep: each collected point equals `outcouple run` of the same case (the same
+    jobs, the same integration); deleting one job file and sweeping again runs exactly that job;
+    a failed job is reported by status with its reason; collect and plot write their files."""
+    case = tmp_path / "sweep.toml"
+    case.write_text(SWEEP)
+    out = tmp_path / "sw"
+    first = run_cli("sweep", case, "--out", out, "--quiet", cwd=tmp_path)
+    assert first.returncode == 0, first.stderr
+    assert "4 of 4 job(s) done (4 run now)" in first.stdout
+    again = run_cli("sweep", case, "--out", out, "--quiet", cwd=tmp_path)
+    assert "(0 run now)" in again.stdout, "an unchanged sweep must not recompute anything"
+
+    job_files = sorted((out / "jobs").glob("*.h5"))
+    assert len(job_files) == 4
+    job_files[1].unlink()
+    (out / "jobs" / (job_files[2].stem + ".failed")).write_text("Traceback ...\nRuntimeError: node lost\n")
+    job_files[2].unlink()
+    status = run_cli("status", out)
+    assert "done 2" in status.stdout and "failed 1" in status.stdout and "missing 1" in status.stdout
+    assert "node lost" in status.stdout
+    refused = run_cli("collect", out)
+    assert refused.returncode == 2 and "not done" in refused.stderr and not (out / "sweep.h5").exists()
+    resumed = run_cli("sweep", case, "--out", out, "--quiet", cwd=tmp_path)
+    assert "(2 run now)" in resumed.stdout and "0 failed" in resumed.stdout
+
+    assert run_cli("collect", out).returncode == 0
+    with open(out / "sweep.csv") as f:
+        rows = list(csv.DictReader(f))
+    assert list(rows[0])[:3] == ["emitter.depth", "chip.index", "efficiency"]
+    with h5py.File(out / "sweep.h5") as f:
+        assert f["efficiency"].shape == (2, 2) and list(f["axes"]) == ["chip.index", "emitter.depth"]
+    for row in rows:
+        single = tmp_path / f"single_{row['emitter.depth']}_{row['chip.index']}.toml"
+        single.write_text(BASE.replace("depth = 0.5", f"depth = {row['emitter.depth']}")
+                          .replace("index = 2.0", f"index = {float(row['chip.index'])}"))
+        ran = run_cli("run", single, "-o", tmp_path / "single.h5", "--json", "--quiet", "--workers", "1")
+        assert ran.returncode == 0, ran.stderr
+        assert float(row["efficiency"]) == pytest.approx(json.loads(ran.stdout)["efficiency"], rel=1e-5)
+    assert run_cli("plot", out).returncode == 0 and (out / "sweep.png").stat().st_size > 10000
+
+
+@pytest.mark.parametrize("table,key,words", [
+    ('"surface.period" = [0.3, 0.4]', "surface.period", "not set in the case file"),
+    ('"emitter.depth" = []', "emitter.depth", "empty list"),
+    ('"emitter.depth" = [0.4, -0.1]', "emitter.depth = -0.1", "greater than 0"),
+    ('"emitter.depth" = { start = 0.4, stop = 0.6 }', "emitter.depth", "start, stop and count"),
+    ('mode = "zip"\n"emitter.depth" = [0.4, 0.5]\n"chip.index" = [2.0]', "sweep.mode", "equal length"),
+])
+def test_bad_sweeps_are_refused_before_anything_runs(tmp_path, table, key, words):
+    case = tmp_path / "bad.toml"
+    case.write_text(BASE + "[sweep]\n" + table + "\n")
+    result = run_cli("sweep", case, "--out", tmp_path / "sw")
+    assert result.returncode == 2 and "Traceback" not in result.stderr
+    assert key in result.stderr and words in result.stderr, result.stderr
+    assert not (tmp_path / "sw").exists()
+
+
+def test_slurm_engine_is_refused_for_now(tmp_path):
+    case = tmp_path / "sweep.toml"
+    case.write_text(SWEEP)
+    result = run_cli("sweep", case, "--out", tmp_path / "sw", "--engine", "slurm")
+    assert result.returncode == 2 and "--engine" in result.stderr and "not available yet" in result.stderr
