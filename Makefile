@@ -8,7 +8,7 @@ OS_PYTHON := /usr/bin/python3
 OS_PACKAGES := python3-meep python3-numpy python3-scipy python3-h5py python3-matplotlib python3-venv python3-pip
 export MPLBACKEND := Agg
 
-.PHONY: setup os-packages demo test bench clean
+.PHONY: setup os-packages slurm demo test bench clean
 
 os-packages:
 	@if ! $(OS_PYTHON) -c "import meep, numpy, scipy, h5py, matplotlib, venv, ensurepip" >/dev/null 2>&1; then \
@@ -36,12 +36,18 @@ setup: os-packages $(VENV)/.installed
 demo: setup
 	@$(PY) configs/demo.py
 
-test: setup
+# A one-node SLURM cluster on localhost (munge, slurmctld, slurmd) for the sweep tests; installed
+# from the OS packages when missing. If it cannot start, those tests skip and say why.
+slurm:
+	@bash scripts/slurm_local.sh || echo "warning: SLURM could not be started here; the SLURM sweep tests will skip"
+
+test: setup slurm
 	@$(PY) -m pytest -q -p no:cacheprovider
 
 bench: setup
 	@$(PY) bench/bench_planar.py
 	@$(PY) bench/bench_rays.py
+	@$(PY) bench/bench_sweep.py
 	@$(PY) bench/bench_runner.py
 
 clean:

@@ -292,6 +292,29 @@ class Grid(_Table):
     decay: float = Field(1e-8, gt=0, lt=0.1)
 
 
+class Cluster(_Table):
+    """``[cluster]``: how ``outcouple sweep --engine slurm`` asks SLURM for resources.
+
+    Parameters
+    ----------
+    partition : str, optional
+    time : str, optional
+        Time limit per array task, in SLURM's notation ("00:30:00").
+    mem : str, optional
+        Memory per task ("2G").
+    cpus : int, optional
+        CPUs per task (1 for serial Meep).
+    extra : list of str
+        Further ``#SBATCH`` lines, without the prefix ("--qos=short").
+    """
+
+    partition: Optional[str] = None
+    time: Optional[str] = None
+    mem: Optional[str] = None
+    cpus: Optional[Annotated[int, Field(ge=1, le=1024)]] = None
+    extra: list[str] = []
+
+
 class Case(_Table):
     """A whole case file."""
 
@@ -302,6 +325,7 @@ class Case(_Table):
     surface: Surface = Flat(pattern="flat")
     emitter: Emitter
     grid: Grid = Grid()
+    cluster: Cluster = Cluster()
     sweep: Optional[dict[str, Any]] = None
     """Read by ``outcouple sweep`` (fdtd_cases.sweep validates it); check and run use the base case."""
 

@@ -228,9 +228,6 @@ def cmd_sweep(args):
     import tomllib
     from . import sweep
 
-    if args.engine != "local":
-        raise CaseError("command line", "--engine", f"{args.engine!r} is not available yet; this version runs "
-                        "sweeps with the local engine only")
     case, text = load_case(args.case)
     the_plan = sweep.plan(tomllib.loads(text), args.case)
     out = Path(args.out)
@@ -242,6 +239,8 @@ def cmd_sweep(args):
                             "plan would no longer describe them)")
     sweep.write_plan(out, the_plan)
     total = sum(len(p["jobs"]) for p in the_plan["points"])
+    if args.engine == "slurm":
+        return _sweep_slurm(args, case, out, total)
     _, counts, _ = sweep.status(out)
     if not args.quiet:
         print(f"sweep of {len(the_plan['points'])} point(s), {total} job(s): {counts['done']} already done, "
@@ -255,13 +254,37 @@ def cmd_sweep(args):
     return 0 if not failed else 1
 
 
+def _sweep_slurm(args, case, out, total):
+    from . import sweep
+
+    cluster = case.cluster.model_dump()
+    for key in ("partition", "time", "mem", "cpus"):
+        if getattr(args, key) is not None:
+            cluster[key] = getattr(args, key)
+    cluster["extra"] = cluster["extra"] + (args.sbatch or [])
+    job, count = sweep.submit_slurm(out, cluster, sys.executable)
+    if job is None:
+        print(f"{out}: nothing to submit (every job is done or queued)")
+    else:
+        print(f"{out}: submitted SLURM job array {job} with {count} task(s) of {total} job(s)")
+    if args.wait:
+        deadline = time.monotonic() + args.wait
+        while sweep.status(out)[1]["running"] and time.monotonic() < deadline:
+            time.sleep(2)
+        _, counts, failed = sweep.status(out)
+        print(f"{out}: done {counts['done']}, running {counts['running']}, failed {counts['failed']}, "
+              f"missing {counts['missing']}")
+        return 0 if counts["done"] == total else 1
+    return 0
+
+
 def cmd_status(args):
     from . import sweep
 
     the_plan, counts, failed = sweep.status(args.dir)
     total = sum(counts.values())
-    print(f"{args.dir}: {total} job(s): done {counts['done']}, running 0, failed {counts['failed']}, "
-          f"missing {counts['missing']} (local engine: nothing runs once 'sweep' has returned)")
+    print(f"{args.dir}: {total} job(s): done {counts['done']}, running {counts['running']}, "
+          f"failed {counts['failed']}, missing {counts['missing']}")
     for values, job, reason in failed:
         print(f"  failed: {job['id']} ({job['orientation']}, x = {job['x']:g}) at "
               + ", ".join(f"{k} = {v:g}" for k, v in values.items()) + f": {reason}")
@@ -365,8 +388,16 @@ def build_parser():
     p = sub.add_parser("sweep", help="run (or resume) the sweep of a case's [sweep] table")
     p.add_argument("case", help="TOML case file with a [sweep] table")
     p.add_argument("--out", required=True, help="sweep folder (plan, one result file per job)")
-    p.add_argument("--engine", default="local", help="where jobs run: local (worker processes; the only one yet)")
-    p.add_argument("--workers", type=_positive_int, help="worker processes (default: number of cores)")
+    p.add_argument("--engine", choices=("local", "slurm"), default="local",
+                   help="local: worker processes here (waits); slurm: one sbatch job array (returns at once)")
+    p.add_argument("--workers", type=_positive_int, help="local worker processes (default: number of cores)")
+    p.add_argument("--partition", help="slurm: partition (overrides [cluster] partition)")
+    p.add_argument("--time", help="slurm: time limit per task, e.g. 00:30:00")
+    p.add_argument("--mem", help="slurm: memory per task, e.g. 2G")
+    p.add_argument("--cpus", type=_positive_int, help="slurm: CPUs per task")
+    p.add_argument("--sbatch", action="append", metavar="LINE", help="slurm: an extra #SBATCH line (repeatable)")
+    p.add_argument("--wait", type=_positive_int, metavar="SECONDS",
+                   help="slurm: wait up to SECONDS for the array to finish, then report")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_sweep)
     for name, func, text in (("status", cmd_status, "done / failed / missing jobs of a sweep folder"),

@@ -90,7 +90,8 @@ def job_id(resolved_toml, orientation, x):
 def plan(data, source):
     """Validate every point (case and grid) before anything runs; the plan as plain data."""
     axes, mode = parse_sweep(data, source)
-    base = {k: v for k, v in data.items() if k != "sweep"}
+    # What says how to run (cluster) or what to vary (sweep) is not part of a job's inputs.
+    base = {k: v for k, v in data.items() if k not in ("sweep", "cluster")}
     points = []
     for values in points_of(axes, mode):
         point = base
@@ -121,26 +122,37 @@ def read_plan(out_dir):
     return json.loads(path.read_text())
 
 
-def job_state(out_dir, job):
-    """("done" | "failed" | "missing", reason)."""
+def job_state(out_dir, job, queued=None):
+    """("done" | "running" | "failed" | "missing", reason).
+
+    ``queued``: sweep job ids pending or running under SLURM (see status).
+    A SLURM task that died without writing its .failed file (cancelled,
+    out of time or memory, node lost) is failed with its log's last line.
+    """
     jobs = Path(out_dir) / "jobs"
     if (jobs / f"{job['id']}.h5").is_file():
         return "done", ""
+    if queued and job["id"] in queued:
+        return "running", queued[job["id"]].lower()
     failed = jobs / f"{job['id']}.failed"
     if failed.is_file():
         lines = [line for line in failed.read_text().splitlines() if line.strip()]
         return "failed", lines[-1] if lines else "failed"
+    reason = slurm_log_reason(out_dir, job["id"])
+    if reason:
+        return "failed", reason
     return "missing", ""
 
 
 def status(out_dir):
     """Counts and the failed jobs with their reasons."""
     the_plan = read_plan(out_dir)
-    counts = {"done": 0, "failed": 0, "missing": 0}
+    queued = _queued_ids(out_dir) if _batches(out_dir) else {}
+    counts = {"done": 0, "running": 0, "failed": 0, "missing": 0}
     failed = []
     for point in the_plan["points"]:
         for job in point["jobs"]:
-            state, reason = job_state(out_dir, job)
+            state, reason = job_state(out_dir, job, queued)
             counts[state] += 1
             if state == "failed":
                 failed.append((point["values"], job, reason))
@@ -190,3 +202,135 @@ def run_local(out_dir, workers=None, progress=True):
 
     run_many([(c, lay, j) for c, lay, j, _ in todo], workers, progress, on_result=finished, on_error=failed)
     return len(todo)
+
+
+# --- SLURM engine -------------------------------------------------------------------------------
+# One submission is a job array over the jobs that were missing or failed when it was made; its
+# list lives in slurm/batch-N.json, and array task i runs entry i (python -m fdtd_cases.sweep_task).
+
+SLURM = "slurm"
+
+
+def _slurm_dir(out_dir):
+    return Path(out_dir) / SLURM
+
+
+def _batches(out_dir):
+    folder = _slurm_dir(out_dir)
+    return sorted(folder.glob("batch-*.json")) if folder.is_dir() else []
+
+
+def batch_script(out_dir, batch_file, count, cluster, python):
+    """The sbatch script of one submission (array tasks 0 .. count-1)."""
+    out_dir = Path(out_dir).resolve()
+    lines = ["#!/bin/bash", "#SBATCH --job-name=outcouple-sweep", f"#SBATCH --array=0-{count - 1}",
+             f"#SBATCH --output={out_dir / SLURM}/%A_%a.log"]
+    for option, value in (("partition", cluster.get("partition")), ("time", cluster.get("time")),
+                          ("mem", cluster.get("mem")), ("cpus-per-task", cluster.get("cpus"))):
+        if value is not None:
+            lines.append(f"#SBATCH --{option}={value}")
+    lines += [f"#SBATCH {line}" for line in cluster.get("extra", [])]
+    lines.append(f'exec "{python}" -m fdtd_cases.sweep_task "{out_dir}" "{Path(batch_file).resolve()}" '
+                 '"$SLURM_ARRAY_TASK_ID"')
+    return "\n".join(lines) + "\n"
+
+
+def submit_slurm(out_dir, cluster, python):
+    """Submit the jobs that are missing or failed (and not queued) as one array; returns (job id, count)."""
+    import shutil
+    import subprocess
+
+    if shutil.which("sbatch") is None:
+        raise CaseError("command line", "--engine", "slurm: sbatch is not on the PATH (is SLURM installed, and is "
+                        "this a login node?)")
+    the_plan = read_plan(out_dir)
+    queued = _queued_ids(out_dir)
+    todo = [job["id"] for point in the_plan["points"] for job in point["jobs"]
+            if job_state(out_dir, job)[0] != "done" and job["id"] not in queued]
+    if not todo:
+        return None, 0
+    folder = _slurm_dir(out_dir)
+    folder.mkdir(parents=True, exist_ok=True)
+    number = len(_batches(out_dir))
+    batch = folder / f"batch-{number:03d}.json"
+    script = folder / f"batch-{number:03d}.sh"
+    script.write_text(batch_script(out_dir, batch, len(todo), cluster, python))
+    batch.write_text(json.dumps({"jobs": todo}))
+    done = subprocess.run(["sbatch", "--parsable", str(script)], capture_output=True, text=True, timeout=60)
+    if done.returncode != 0:
+        batch.unlink()
+        raise CaseError("command line", "--engine", f"slurm: sbatch refused the array: {done.stderr.strip()}")
+    job = done.stdout.strip().split(";")[0]
+    batch.write_text(json.dumps({"jobs": todo, "slurm_job": job}))
+    return job, len(todo)
+
+
+def _queue():
+    """{(slurm job id, array task) or (job id, None): state} from squeue; {} without SLURM."""
+    import shutil
+    import subprocess
+
+    if shutil.which("squeue") is None:
+        return {}
+    done = subprocess.run(["squeue", "-h", "-r", "-o", "%i %T"], capture_output=True, text=True, timeout=30)
+    states = {}
+    for line in done.stdout.splitlines():
+        ident, _, state = line.partition(" ")
+        job, _, task = ident.partition("_")
+        states[(job, task)] = state
+    return states
+
+
+def _queued_ids(out_dir):
+    """Sweep job ids whose array task is pending or running."""
+    queue = _queue()
+    ids = {}
+    for batch in _batches(out_dir):
+        info = json.loads(batch.read_text())
+        for i, job_id_ in enumerate(info["jobs"]):
+            state = queue.get((info.get("slurm_job"), str(i)))
+            if state in ("PENDING", "RUNNING", "CONFIGURING", "COMPLETING"):
+                ids[job_id_] = state
+    return ids
+
+
+def slurm_log_reason(out_dir, job_id_):
+    """The last line of the newest SLURM log of a job (why a task died without a .failed file)."""
+    reason = ""
+    for batch in _batches(out_dir):
+        info = json.loads(batch.read_text())
+        if job_id_ in info["jobs"] and info.get("slurm_job"):
+            log = _slurm_dir(out_dir) / f"{info['slurm_job']}_{info['jobs'].index(job_id_)}.log"
+            if log.is_file():
+                lines = [line for line in log.read_text(errors="replace").splitlines() if line.strip()]
+                reason = lines[-1] if lines else "no output"
+    return reason
+
+
+def run_task(out_dir, batch_file, index):
+    """One array task: run the sweep job at ``index`` of ``batch_file`` and write its file."""
+    import tomllib
+    from .meep_job import run_job
+
+    job_id_ = json.loads(Path(batch_file).read_text())["jobs"][index]
+    the_plan = read_plan(out_dir)
+    for point in the_plan["points"]:
+        for job in point["jobs"]:
+            if job["id"] == job_id_:
+                break
+        else:
+            continue
+        break
+    else:
+        raise SystemExit(f"sweep_task: job {job_id_} is not in {out_dir}/{PLAN}")
+    with open(_slurm_dir(out_dir) / "runs.log", "a") as log:
+        log.write(f"{job_id_} started\n")
+    try:
+        case = parse_case(tomllib.loads(point["case_toml"]), source=f"{out_dir}/{PLAN}")
+        layout = make_layout(case)
+        raw = run_job(case, layout, job["orientation"], job["x"], job["symmetric"])
+        write_job(out_dir, case, layout, job, raw, point)
+    except Exception as error:
+        text = "".join(traceback.format_exception(error))
+        (Path(out_dir) / "jobs" / f"{job_id_}.failed").write_text(text)
+        raise

@@ -74,10 +74,3 @@ def test_bad_sweeps_are_refused_before_anything_runs(tmp_path, table, key, words
     assert result.returncode == 2 and "Traceback" not in result.stderr
     assert key in result.stderr and words in result.stderr, result.stderr
     assert not (tmp_path / "sw").exists()
-
-
-def test_slurm_engine_is_refused_for_now(tmp_path):
-    case = tmp_path / "sweep.toml"
-    case.write_text(SWEEP)
-    result = run_cli("sweep", case, "--out", tmp_path / "sw", "--engine", "slurm")
-    assert result.returncode == 2 and "--engine" in result.stderr and "not available yet" in result.stderr

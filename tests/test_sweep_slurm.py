@@ -1,0 +1,125 @@
+"""Sweeps through a real SLURM: the one-node cluster that `make test` starts (scripts/slurm_local.sh).
+
+Submit a small sweep as a job array, kill one array task while it runs, resume, and check that
+the collected data set equals a local run of the same sweep point by point, with no job
+computed twice (each task notes its start in slurm/runs.log).
+"""
+
+import csv
+import json
+import os
+import shutil
+import subprocess
+import sys
+import time
+
+import pytest
+
+from conftest import SMALL_FLAT_CASE, requires_meep, run_cli
+
+
+def slurm_reason():
+    """Why SLURM cannot be used here, or None."""
+    if shutil.which("sbatch") is None:
+        return "sbatch not found (make test starts SLURM with scripts/slurm_local.sh)"
+    try:
+        state = subprocess.run(["sinfo", "-h", "-o", "%T"], capture_output=True, text=True, timeout=20).stdout
+    except (OSError, subprocess.TimeoutExpired) as exc:
+        return f"sinfo failed: {exc}"
+    if not any(s.strip() in ("idle", "mixed", "allocated") for s in state.split()):
+        return f"no SLURM node is up (sinfo: {state.strip() or 'nothing'})"
+    return None
+
+
+REASON = slurm_reason()
+needs_slurm = pytest.mark.skipif(REASON is not None, reason=f"SLURM unavailable: {REASON}")
+
+SWEEP = SMALL_FLAT_CASE.replace("points_per_wavelength = 12", "points_per_wavelength = 28") + """
+[sweep]
+"emitter.depth" = [0.4, 0.6]
+"chip.index" = [2.0, 2.4]
+[cluster]
+time = "00:10:00"
+mem = "1G"
+"""
+
+
+def task_state(job, task):
+    out = subprocess.run(["squeue", "-h", "-t", "all", "-r", "-j", job, "-o", "%i %T"], capture_output=True,
+                         text=True, timeout=20).stdout
+    for line in out.splitlines():
+        ident, _, state = line.partition(" ")
+        if ident == f"{job}_{task}":
+            return state.strip()
+    return ""
+
+
+def efficiencies(folder):
+    with open(folder / "sweep.csv") as f:
+        return [(row["emitter.depth"], row["chip.index"], float(row["efficiency"])) for row in csv.DictReader(f)]
+
+
+@requires_meep
+@pytest.mark.fdtd
+@needs_slurm
+def test_slurm_sweep_survives_a_killed_task(tmp_path):
+    case = tmp_path / "sweep.toml"
+    case.write_text(SWEEP)
+    out = tmp_path / "cluster"
+    submitted = run_cli("sweep", case, "--out", out, "--engine", "slurm", cwd=tmp_path)
+    assert submitted.returncode == 0, submitted.stderr
+    job = submitted.stdout.split("job array ")[1].split()[0]
+
+    # Kill task 1 while it runs, as a lost node or a time limit would.
+    deadline = time.monotonic() + 120
+    while task_state(job, 1) in ("PENDING", "CONFIGURING", "") and time.monotonic() < deadline:
+        time.sleep(0.1)
+    assert task_state(job, 1) == "RUNNING", f"task 1 never ran: {task_state(job, 1)}"
+    subprocess.run(["scancel", f"{job}_1"], check=True, timeout=20)
+
+    deadline = time.monotonic() + 300
+    while "running 0" not in run_cli("status", out).stdout and time.monotonic() < deadline:
+        time.sleep(1)
+    status = run_cli("status", out).stdout
+    assert "done 3" in status and "failed 1" in status, status
+    assert "CANCELLED" in status, status
+    assert run_cli("collect", out).returncode == 2, "collect must refuse an unfinished sweep"
+
+    resumed = run_cli("sweep", case, "--out", out, "--engine", "slurm", "--wait", "300", cwd=tmp_path)
+    assert resumed.returncode == 0, resumed.stdout + resumed.stderr
+    assert "with 1 task(s)" in resumed.stdout and "done 4" in resumed.stdout, resumed.stdout
+    starts = [w for w in (out / "slurm" / "runs.log").read_text().split() if w != "started"]
+    killed = json.loads((out / "slurm" / "batch-000.json").read_text())["jobs"][1]
+    assert json.loads((out / "slurm" / "batch-001.json").read_text())["jobs"] == [killed], "only the killed job again"
+    counts = {i: starts.count(i) for i in set(starts)}
+    assert len(counts) == 4, f"every job ran: {counts}"
+    # The killed task may have died before or after noting its start; every other job ran once.
+    assert all(n == 1 for i, n in counts.items() if i != killed) and counts[killed] in (1, 2), counts
+    assert run_cli("collect", out).returncode == 0
+
+    local = tmp_path / "local"
+    assert run_cli("sweep", case, "--out", local, "--quiet", cwd=tmp_path).returncode == 0
+    assert run_cli("collect", local).returncode == 0
+    for (d1, n1, e1), (d2, n2, e2) in zip(efficiencies(out), efficiencies(local)):
+        assert (d1, n1) == (d2, n2) and e1 == pytest.approx(e2, rel=1e-9), (d1, n1, e1, e2)
+
+
+def test_unreachable_slurm_is_a_clear_error(tmp_path):
+    """sbatch missing from the PATH: a message naming --engine, exit 2, nothing submitted."""
+    case = tmp_path / "sweep.toml"
+    case.write_text(SWEEP)
+    env = dict(os.environ, PATH="/nonexistent")
+    result = subprocess.run([sys.executable, "-m", "fdtd_cases.cli", "sweep", str(case), "--out", str(tmp_path / "x"),
+                             "--engine", "slurm"], capture_output=True, text=True, env=env, timeout=120)
+    assert result.returncode == 2 and "--engine" in result.stderr and "sbatch" in result.stderr, result.stderr
+    assert not list((tmp_path / "x").glob("jobs/*.h5"))
+
+
+@needs_slurm
+def test_misconfigured_slurm_request_is_a_clear_error(tmp_path):
+    """A partition that does not exist: sbatch's own reason, naming --engine, exit 2, no batch kept."""
+    case = tmp_path / "sweep.toml"
+    case.write_text(SWEEP)
+    result = run_cli("sweep", case, "--out", tmp_path / "x", "--engine", "slurm", "--partition", "no_such_partition")
+    assert result.returncode == 2 and "--engine" in result.stderr and "sbatch refused" in result.stderr, result.stderr
+    assert not list((tmp_path / "x" / "slurm").glob("batch-*.json"))
