@@ -306,6 +306,9 @@ class Cluster(_Table):
         CPUs per task (1 for serial Meep).
     extra : list of str
         Further ``#SBATCH`` lines, without the prefix ("--qos=short").
+    jobs_per_task : int
+        Sweep jobs run one after the other by each array task (default 1);
+        more amortise each task's start-up (Python and Meep loading, queueing).
     """
 
     partition: Optional[str] = None
@@ -313,6 +316,7 @@ class Cluster(_Table):
     mem: Optional[str] = None
     cpus: Optional[Annotated[int, Field(ge=1, le=1024)]] = None
     extra: list[str] = []
+    jobs_per_task: Annotated[int, Field(ge=1, le=10000)] = 1
 
 
 class Case(_Table):

@@ -258,7 +258,7 @@ def _sweep_slurm(args, case, out, total):
     from . import sweep
 
     cluster = case.cluster.model_dump()
-    for key in ("partition", "time", "mem", "cpus"):
+    for key in ("partition", "time", "mem", "cpus", "jobs_per_task"):
         if getattr(args, key) is not None:
             cluster[key] = getattr(args, key)
     cluster["extra"] = cluster["extra"] + (args.sbatch or [])
@@ -266,7 +266,8 @@ def _sweep_slurm(args, case, out, total):
     if job is None:
         print(f"{out}: nothing to submit (every job is done or queued)")
     else:
-        print(f"{out}: submitted SLURM job array {job} with {count} task(s) of {total} job(s)")
+        print(f"{out}: submitted SLURM job array {job} with {count} task(s) "
+              f"({cluster['jobs_per_task']} job(s) per task; the sweep has {total} job(s))")
     if args.wait:
         deadline = time.monotonic() + args.wait
         while sweep.status(out)[1]["running"] and time.monotonic() < deadline:
@@ -396,6 +397,7 @@ def build_parser():
     p.add_argument("--mem", help="slurm: memory per task, e.g. 2G")
     p.add_argument("--cpus", type=_positive_int, help="slurm: CPUs per task")
     p.add_argument("--sbatch", action="append", metavar="LINE", help="slurm: an extra #SBATCH line (repeatable)")
+    p.add_argument("--jobs-per-task", type=_positive_int, help="slurm: sweep jobs per array task (default 1)")
     p.add_argument("--wait", type=_positive_int, metavar="SECONDS",
                    help="slurm: wait up to SECONDS for the array to finish, then report")
     p.add_argument("--quiet", action="store_true", help="no progress display")

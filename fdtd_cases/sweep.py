@@ -221,7 +221,7 @@ def _batches(out_dir):
 
 
 def batch_script(out_dir, batch_file, count, cluster, python):
-    """The sbatch script of one submission (array tasks 0 .. count-1)."""
+    """The sbatch script of one submission (array tasks 0 .. count-1; each runs ``jobs_per_task`` jobs)."""
     out_dir = Path(out_dir).resolve()
     lines = ["#!/bin/bash", "#SBATCH --job-name=outcouple-sweep", f"#SBATCH --array=0-{count - 1}",
              f"#SBATCH --output={out_dir / SLURM}/%A_%a.log"]
@@ -254,15 +254,17 @@ def submit_slurm(out_dir, cluster, python):
     number = len(_batches(out_dir))
     batch = folder / f"batch-{number:03d}.json"
     script = folder / f"batch-{number:03d}.sh"
-    script.write_text(batch_script(out_dir, batch, len(todo), cluster, python))
-    batch.write_text(json.dumps({"jobs": todo}))
+    per_task = int(cluster.get("jobs_per_task") or 1)
+    tasks = -(-len(todo) // per_task)
+    script.write_text(batch_script(out_dir, batch, tasks, cluster, python))
+    batch.write_text(json.dumps({"jobs": todo, "per_task": per_task}))
     done = subprocess.run(["sbatch", "--parsable", str(script)], capture_output=True, text=True, timeout=60)
     if done.returncode != 0:
         batch.unlink()
         raise CaseError("command line", "--engine", f"slurm: sbatch refused the array: {done.stderr.strip()}")
     job = done.stdout.strip().split(";")[0]
-    batch.write_text(json.dumps({"jobs": todo, "slurm_job": job}))
-    return job, len(todo)
+    batch.write_text(json.dumps({"jobs": todo, "per_task": per_task, "slurm_job": job}))
+    return job, tasks
 
 
 def _queue():
@@ -287,8 +289,9 @@ def _queued_ids(out_dir):
     ids = {}
     for batch in _batches(out_dir):
         info = json.loads(batch.read_text())
+        per_task = info.get("per_task", 1)
         for i, job_id_ in enumerate(info["jobs"]):
-            state = queue.get((info.get("slurm_job"), str(i)))
+            state = queue.get((info.get("slurm_job"), str(i // per_task)))
             if state in ("PENDING", "RUNNING", "CONFIGURING", "COMPLETING"):
                 ids[job_id_] = state
     return ids
@@ -300,7 +303,8 @@ def slurm_log_reason(out_dir, job_id_):
     for batch in _batches(out_dir):
         info = json.loads(batch.read_text())
         if job_id_ in info["jobs"] and info.get("slurm_job"):
-            log = _slurm_dir(out_dir) / f"{info['slurm_job']}_{info['jobs'].index(job_id_)}.log"
+            task = info["jobs"].index(job_id_) // info.get("per_task", 1)
+            log = _slurm_dir(out_dir) / f"{info['slurm_job']}_{task}.log"
             if log.is_file():
                 lines = [line for line in log.read_text(errors="replace").splitlines() if line.strip()]
                 reason = lines[-1] if lines else "no output"
@@ -308,29 +312,34 @@ def slurm_log_reason(out_dir, job_id_):
 
 
 def run_task(out_dir, batch_file, index):
-    """One array task: run the sweep job at ``index`` of ``batch_file`` and write its file."""
+    """One array task: run its share of ``batch_file``'s jobs, writing each job's file.
+
+    A job that fails leaves its .failed file and the task goes on with the
+    next; the task exits non-zero if any failed.
+    """
     import tomllib
     from .meep_job import run_job
 
-    job_id_ = json.loads(Path(batch_file).read_text())["jobs"][index]
-    the_plan = read_plan(out_dir)
-    for point in the_plan["points"]:
-        for job in point["jobs"]:
-            if job["id"] == job_id_:
-                break
-        else:
-            continue
-        break
-    else:
-        raise SystemExit(f"sweep_task: job {job_id_} is not in {out_dir}/{PLAN}")
-    with open(_slurm_dir(out_dir) / "runs.log", "a") as log:
-        log.write(f"{job_id_} started\n")
-    try:
-        case = parse_case(tomllib.loads(point["case_toml"]), source=f"{out_dir}/{PLAN}")
-        layout = make_layout(case)
-        raw = run_job(case, layout, job["orientation"], job["x"], job["symmetric"])
-        write_job(out_dir, case, layout, job, raw, point)
-    except Exception as error:
-        text = "".join(traceback.format_exception(error))
-        (Path(out_dir) / "jobs" / f"{job_id_}.failed").write_text(text)
-        raise
+    info = json.loads(Path(batch_file).read_text())
+    per_task = info.get("per_task", 1)
+    mine = info["jobs"][index * per_task:(index + 1) * per_task]
+    where = {job["id"]: (point, job) for point in read_plan(out_dir)["points"] for job in point["jobs"]}
+    failures = 0
+    for job_id_ in mine:
+        if job_id_ not in where:
+            raise SystemExit(f"sweep_task: job {job_id_} is not in {out_dir}/{PLAN}")
+        point, job = where[job_id_]
+        with open(_slurm_dir(out_dir) / "runs.log", "a") as log:
+            log.write(f"{job_id_} started\n")
+        try:
+            case = parse_case(tomllib.loads(point["case_toml"]), source=f"{out_dir}/{PLAN}")
+            layout = make_layout(case)
+            raw = run_job(case, layout, job["orientation"], job["x"], job["symmetric"])
+            write_job(out_dir, case, layout, job, raw, point)
+        except Exception as error:
+            text = "".join(traceback.format_exception(error))
+            (Path(out_dir) / "jobs" / f"{job_id_}.failed").write_text(text)
+            print(text, flush=True)
+            failures += 1
+    if failures:
+        raise SystemExit(f"sweep_task: {failures} of {len(mine)} job(s) failed")

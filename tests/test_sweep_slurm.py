@@ -123,3 +123,18 @@ def test_misconfigured_slurm_request_is_a_clear_error(tmp_path):
     result = run_cli("sweep", case, "--out", tmp_path / "x", "--engine", "slurm", "--partition", "no_such_partition")
     assert result.returncode == 2 and "--engine" in result.stderr and "sbatch refused" in result.stderr, result.stderr
     assert not list((tmp_path / "x" / "slurm").glob("batch-*.json"))
+
+
+@requires_meep
+@pytest.mark.fdtd
+@needs_slurm
+def test_slurm_tasks_can_run_batches_of_jobs(tmp_path):
+    """--jobs-per-task 3: the 4 jobs go out as 2 array tasks, and every job file is written."""
+    case = tmp_path / "sweep.toml"
+    case.write_text(SWEEP)
+    out = tmp_path / "batched"
+    result = run_cli("sweep", case, "--out", out, "--engine", "slurm", "--jobs-per-task", "3", "--wait", "300",
+                     cwd=tmp_path)
+    assert result.returncode == 0, result.stdout + result.stderr
+    assert "with 2 task(s)" in result.stdout and "done 4" in result.stdout, result.stdout
+    assert len(list((out / "jobs").glob("*.h5"))) == 4
