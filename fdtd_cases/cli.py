@@ -248,10 +248,14 @@ def cmd_sweep(args):
     ran = sweep.run_local(out, workers=args.workers, progress=not args.quiet)
     _, counts, failed = sweep.status(out)
     print(f"{out}: {counts['done']} of {total} job(s) done ({ran} run now), {counts['failed']} failed")
+    _print_failed(failed)
+    return 0 if not failed else 1
+
+
+def _print_failed(failed):
     for values, job, reason in failed:
         print(f"  failed: {job['id']} ({job['orientation']}, x = {job['x']:g}) at "
               + ", ".join(f"{k} = {v:g}" for k, v in values.items()) + f": {reason}")
-    return 0 if not failed else 1
 
 
 def _sweep_slurm(args, case, out, total):
@@ -286,9 +290,7 @@ def cmd_status(args):
     total = sum(counts.values())
     print(f"{args.dir}: {total} job(s): done {counts['done']}, running {counts['running']}, "
           f"failed {counts['failed']}, missing {counts['missing']}")
-    for values, job, reason in failed:
-        print(f"  failed: {job['id']} ({job['orientation']}, x = {job['x']:g}) at "
-              + ", ".join(f"{k} = {v:g}" for k, v in values.items()) + f": {reason}")
+    _print_failed(failed)
     return 0
 
 
