@@ -112,6 +112,19 @@ def _coefficients(stack, wavelength, key):
     return lookup
 
 
+def _back_lookup(kind, n_chip, back_index, wavelength):
+    """(pol, cos_i) -> (R, T) of a metal or substrate back side; None for open or mirror backs."""
+    if kind not in ("metal", "substrate"):
+        return None
+    reflect = _coefficients(multilayer.Stack(1.0, (), complex(n_chip), 1.0, kind, back_index), wavelength, "back")
+    passes = kind == "substrate"   # a substrate transmits the rest, a metal absorbs it
+
+    def lookup(pol, cos_i):
+        R, _ = reflect(pol, cos_i)
+        return R, (1 - R if passes else np.zeros_like(R))
+    return lookup
+
+
 def scene_from_case(case, layout, wavelength, lateral="absorbing"):
     """The ray scene of a case at one wavelength, on the FDTD layout's domain."""
     from fdtd_cases import geometry
@@ -123,14 +136,7 @@ def scene_from_case(case, layout, wavelength, lateral="absorbing"):
     top = multilayer.Stack(case.ambient.index, films, complex(n_chip), math.inf)
     reverse = multilayer.Stack(n_chip, tuple(reversed(films)), complex(case.ambient.index), math.inf)
     up, down = _coefficients(top, wavelength, "top"), _coefficients(reverse, wavelength, "top")
-    back_coefficients = None
-    if case.chip.back in ("metal", "substrate"):
-        back_stack = multilayer.Stack(1.0, (), complex(n_chip), 1.0, case.chip.back, stack.back_index)
-        reflect = _coefficients(back_stack, wavelength, "back")
-
-        def back_coefficients(pol, cos_i):
-            R, _ = reflect(pol, cos_i)
-            return R, (1 - R if case.chip.back == "substrate" else np.zeros_like(R))
+    back = _back_lookup(case.chip.back, n_chip, stack.back_index, wavelength)
     period = None
     if lateral == "periodic":
         period = getattr(case.surface, "period", None)
@@ -151,7 +157,7 @@ def scene_from_case(case, layout, wavelength, lateral="absorbing"):
         y_back = layout.y_bottom
     return Scene(segments=segments[keep], n_chip=n_chip, n_ambient=case.ambient.index,
                  alpha=case.chip.alpha_per_um, up=up, down=down, back=case.chip.back,
-                 back_coefficients=back_coefficients, y_back=y_back, y_top=layout.y_top,
+                 back_coefficients=back, y_back=y_back, y_top=layout.y_top,
                  x_side=layout.x_side, period=period)
 
 
