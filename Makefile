@@ -8,7 +8,7 @@ OS_PYTHON := /usr/bin/python3
 OS_PACKAGES := python3-meep python3-numpy python3-scipy python3-h5py python3-matplotlib python3-venv python3-pip
 export MPLBACKEND := Agg
 
-.PHONY: setup os-packages slurm demo test bench clean
+.PHONY: setup os-packages slurm mpi-meep demo test bench clean
 
 os-packages:
 	@if ! $(OS_PYTHON) -c "import meep, numpy, scipy, h5py, matplotlib, venv, ensurepip" >/dev/null 2>&1; then \
@@ -41,7 +41,11 @@ demo: setup
 slurm:
 	@bash scripts/slurm_local.sh || echo "warning: SLURM could not be started here; the SLURM sweep tests will skip"
 
-test: setup slurm
+# The MPI build of Meep beside the serial one (unpacked into /opt/meep-mpi) for the MPI sweep test.
+mpi-meep:
+	@bash scripts/meep_mpi_local.sh || echo "warning: MPI Meep could not be provided; the MPI sweep test will skip"
+
+test: setup slurm mpi-meep
 	@$(PY) -m pytest -q -p no:cacheprovider
 
 bench: setup

@@ -309,6 +309,11 @@ class Cluster(_Table):
     jobs_per_task : int
         Sweep jobs run one after the other by each array task (default 1);
         more amortise each task's start-up (Python and Meep loading, queueing).
+    mpi_ranks : int
+        Above 1: each task runs its jobs with the MPI build of Meep on this
+        many processes (the Python that submits must import that build).
+    mpi_launch : str
+        The launcher, ``{ranks}`` replaced by ``mpi_ranks``.
     """
 
     partition: Optional[str] = None
@@ -317,6 +322,8 @@ class Cluster(_Table):
     cpus: Optional[Annotated[int, Field(ge=1, le=1024)]] = None
     extra: list[str] = []
     jobs_per_task: Annotated[int, Field(ge=1, le=10000)] = 1
+    mpi_ranks: Annotated[int, Field(ge=1, le=4096)] = 1
+    mpi_launch: str = "mpirun -np {ranks}"
 
 
 class Case(_Table):

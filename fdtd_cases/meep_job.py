@@ -26,6 +26,11 @@ MAX_RUN_CROSSINGS = 60
 """Safety stop: at most this many light crossings of the cell (in chip material) after the pulse."""
 
 
+def is_master():
+    """True on the process that writes files (always, without MPI)."""
+    return bool(mp.am_master())
+
+
 def monitor_lines(layout, x0):
     """Monitor lines of a job: name -> (start, end, outward normal).
 

@@ -229,8 +229,12 @@ def batch_script(out_dir, batch_file, count, cluster, python):
                           ("mem", cluster.get("mem")), ("cpus-per-task", cluster.get("cpus"))):
         if value is not None:
             lines.append(f"#SBATCH --{option}={value}")
+    ranks = int(cluster.get("mpi_ranks") or 1)
+    if ranks > 1 and cluster.get("cpus") is None:
+        lines.append(f"#SBATCH --cpus-per-task={ranks}")
     lines += [f"#SBATCH {line}" for line in cluster.get("extra", [])]
-    lines.append(f'exec "{python}" -m fdtd_cases.sweep_task "{out_dir}" "{Path(batch_file).resolve()}" '
+    launch = cluster.get("mpi_launch", "mpirun -np {ranks}").format(ranks=ranks) + " " if ranks > 1 else ""
+    lines.append(f'exec {launch}"{python}" -m fdtd_cases.sweep_task "{out_dir}" "{Path(batch_file).resolve()}" '
                  '"$SLURM_ARRAY_TASK_ID"')
     return "\n".join(lines) + "\n"
 
@@ -318,8 +322,10 @@ def run_task(out_dir, batch_file, index):
     next; the task exits non-zero if any failed.
     """
     import tomllib
-    from .meep_job import run_job
+    from .meep_job import is_master, run_job
 
+    # Under MPI every rank runs the simulation; only the master writes files (Meep's rule).
+    master = is_master()
     info = json.loads(Path(batch_file).read_text())
     per_task = info.get("per_task", 1)
     mine = info["jobs"][index * per_task:(index + 1) * per_task]
@@ -329,16 +335,19 @@ def run_task(out_dir, batch_file, index):
         if job_id_ not in where:
             raise SystemExit(f"sweep_task: job {job_id_} is not in {out_dir}/{PLAN}")
         point, job = where[job_id_]
-        with open(_slurm_dir(out_dir) / "runs.log", "a") as log:
-            log.write(f"{job_id_} started\n")
+        if master:
+            with open(_slurm_dir(out_dir) / "runs.log", "a") as log:
+                log.write(f"{job_id_} started\n")
         try:
             case = parse_case(tomllib.loads(point["case_toml"]), source=f"{out_dir}/{PLAN}")
             layout = make_layout(case)
             raw = run_job(case, layout, job["orientation"], job["x"], job["symmetric"])
-            write_job(out_dir, case, layout, job, raw, point)
+            if master:
+                write_job(out_dir, case, layout, job, raw, point)
         except Exception as error:
             text = "".join(traceback.format_exception(error))
-            (Path(out_dir) / "jobs" / f"{job_id_}.failed").write_text(text)
+            if master:
+                (Path(out_dir) / "jobs" / f"{job_id_}.failed").write_text(text)
             print(text, flush=True)
             failures += 1
     if failures:

@@ -138,3 +138,41 @@ def test_slurm_tasks_can_run_batches_of_jobs(tmp_path):
     assert result.returncode == 0, result.stdout + result.stderr
     assert "with 2 task(s)" in result.stdout and "done 4" in result.stdout, result.stdout
     assert len(list((out / "jobs").glob("*.h5"))) == 4
+
+
+MPI_PREFIX = "/opt/meep-mpi"
+MPI_ENV = (f"--export=ALL,PYTHONPATH={MPI_PREFIX}/usr/lib/python3/dist-packages,"
+           f"LD_LIBRARY_PATH={MPI_PREFIX}/usr/lib/x86_64-linux-gnu")
+
+
+@requires_meep
+@pytest.mark.fdtd
+@needs_slurm
+@pytest.mark.skipif(not (shutil.which("mpirun") and os.path.isdir(f"{MPI_PREFIX}/usr/lib/python3/dist-packages/meep")),
+                    reason="MPI Meep not provided (make test runs scripts/meep_mpi_local.sh)")
+def test_mpi_tasks_give_the_serial_answer(tmp_path):
+    """mpi_ranks = 2: each array task runs its job on two MPI processes of the MPI build (the log
+    says so), and the collected efficiency and budget equal a local serial sweep of the same case
+    (Meep's parallel runs are deterministic: domain decomposition does not change the update)."""
+    text = SMALL_FLAT_CASE.replace('orientation = "out-of-plane"', 'orientation = "parallel"') + f"""
+[sweep]
+"emitter.depth" = [0.5]
+[cluster]
+time = "00:10:00"
+mpi_ranks = 2
+mpi_launch = "mpirun --allow-run-as-root --oversubscribe -np {{ranks}}"
+extra = ["{MPI_ENV}"]
+"""
+    case = tmp_path / "mpi.toml"
+    case.write_text(text)
+    result = run_cli("sweep", case, "--out", tmp_path / "mpi", "--engine", "slurm", "--wait", "300", cwd=tmp_path)
+    assert result.returncode == 0 and "done 1" in result.stdout, result.stdout + result.stderr
+    logs = " ".join(p.read_text() for p in (tmp_path / "mpi" / "slurm").glob("*.log"))
+    assert "2 processes" in logs, logs[-500:]
+    assert run_cli("sweep", case, "--out", tmp_path / "serial", "--quiet", cwd=tmp_path).returncode == 0
+    for folder in ("mpi", "serial"):
+        assert run_cli("collect", tmp_path / folder).returncode == 0
+    with open(tmp_path / "mpi" / "sweep.csv") as a, open(tmp_path / "serial" / "sweep.csv") as b:
+        mpi, serial = next(csv.DictReader(a)), next(csv.DictReader(b))
+    for key in ("efficiency", "top", "bottom", "sides"):
+        assert float(mpi[key]) == pytest.approx(float(serial[key]), rel=1e-5, abs=1e-6), key
