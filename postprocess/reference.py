@@ -16,10 +16,9 @@ and escaped powers (fractions of the bulk power) add directly.
 import numpy as np
 
 from . import closed_forms, multilayer
+from .farfield import ANGLES as FARFIELD_ANGLES
 
 CATEGORIES = ("top", "bottom", "sides", "absorbed")
-FARFIELD_ANGLES = np.linspace(-89.5, 89.5, 180)
-"""Ambient angles of the reported far field, degrees (1-degree bins, centres)."""
 
 
 def stack_at(case, wavelength):
