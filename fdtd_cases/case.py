@@ -326,6 +326,30 @@ class Cluster(_Table):
     mpi_launch: str = "mpirun -np {ranks}"
 
 
+class Collection(_Table):
+    """``[collection]``: the cone (in 2-D, the fan) of directions a lens or detector accepts.
+
+    Give one of the two keys; the cone is centred on the surface normal.
+
+    Parameters
+    ----------
+    na : float, optional
+        Numerical aperture in the ambient, n_ambient sin(half-angle); at most
+        the ambient index.
+    half_angle : float, optional
+        Half-angle from the normal, degrees (0 to 90).
+    """
+
+    na: Optional[float] = Field(None, gt=0, allow_inf_nan=False)
+    half_angle: Optional[float] = Field(None, gt=0, le=90, allow_inf_nan=False)
+
+    @model_validator(mode="after")
+    def _one_of(self):
+        if (self.na is None) == (self.half_angle is None):
+            raise ValueError("give exactly one of na and half_angle")
+        return self
+
+
 class Case(_Table):
     """A whole case file."""
 
@@ -337,6 +361,8 @@ class Case(_Table):
     emitter: Emitter
     grid: Grid = Grid()
     cluster: Cluster = Cluster()
+    collection: Optional[Collection] = None
+    """Read by the reports only: it does not change what the FDTD computes."""
     sweep: Optional[dict[str, Any]] = None
     """Read by ``outcouple sweep`` (fdtd_cases.sweep validates it); check and run use the base case."""
 
@@ -416,6 +442,9 @@ def parse_case(data, source="case"):
     if depth >= thickness:
         raise CaseError(source, "emitter.depth", f"is {depth:g} µm, not inside the chip "
                         f"(chip.thickness = {thickness:g} µm)")
+    if case.collection is not None and case.collection.na is not None and case.collection.na > case.ambient.index:
+        raise CaseError(source, "collection.na", f"is {case.collection.na:g}, more than the ambient index "
+                        f"{case.ambient.index:g} (na = n_ambient sin(half-angle))")
     return case
 
 

@@ -1,13 +1,15 @@
 """``outcouple``: the command line. It only parses, dispatches and prints.
 
     outcouple check CASE
-    outcouple run CASE [-o FILE.h5] [--json] [--workers N] [--quiet]
-    outcouple show FILE.h5 [--json]
+    outcouple run CASE [-o FILE.h5] [--json] [--na NA] [--fields] [--workers N] [--quiet]
+    outcouple show FILE.h5 [--json] [--na NA]
     outcouple reference CASE [--json]
     outcouple rays CASE [--rays N] [--lateral absorbing|periodic] [--seed S] [--json]
     outcouple compare CASE --vary KEY=START:STOP:COUNT [--tolerance T] [--rays N] [-o DIR] [--json]
     outcouple sweep CASE --out DIR [--engine local] [--workers N] [--quiet]
     outcouple status DIR | collect DIR | plot DIR [-o FILE.png]
+    outcouple report RESULT.h5|DIR [-o FILE.html] [--na NA]
+    outcouple converge CASE [--tolerance T] [--resolutions R1,R2[,R3]] [--json]
 
 Bad input: one message naming the file and key on standard error, exit
 code 2, no traceback, no result file.
@@ -67,6 +69,18 @@ def cmd_check(args):
     return 0
 
 
+def _with_na(case, na):
+    """The case with the command line's collection cone, which overrides a [collection] table."""
+    from .case import Collection
+
+    if na is None:
+        return case
+    if na > case.ambient.index:
+        raise CaseError("command line", "--na", f"is {na:g}, more than the ambient index {case.ambient.index:g} "
+                        "(na = n_ambient sin(half-angle))")
+    return case.model_copy(update={"collection": Collection(na=na)})
+
+
 def _versions(raw):
     # Meep is imported only in the workers (it prints on standard output), which report its version.
     return {"package_version": __version__, "meep_version": raw[0]["meep_version"]}
@@ -77,6 +91,7 @@ def cmd_run(args):
     from postprocess.results import write_results
 
     case, text, layout = _load(args.case)
+    case = _with_na(case, args.na)
     out = Path(args.output) if args.output else Path(Path(args.case).stem + ".h5")
     if not out.parent.is_dir():
         raise CaseError("command line", "-o", f"the folder of {out} does not exist")
@@ -84,7 +99,7 @@ def cmd_run(args):
     if not args.quiet:
         print(f"running {len(jobs)} job(s) of {args.case}", file=sys.stderr)
     started = time.perf_counter()
-    raw = run_jobs(case, layout, jobs, workers=args.workers, progress=not args.quiet)
+    raw = run_jobs(case, layout, jobs, workers=args.workers, progress=not args.quiet, field_map=args.fields)
     merged = [{**job, **result} for job, result in zip(jobs, raw)]
     summary = analyse(case, merged, layout.wavelengths, layout.resolution)
     summary["result_file"] = str(out)
@@ -106,6 +121,7 @@ def cmd_show(args):
 
     data = read_results(args.result)
     case = parse_case(tomllib.loads(data["case_resolved"]), source=f"{args.result}:/case/resolved")
+    case = _with_na(case, args.na)
     summary = analyse(case, data["jobs"], data["grid"]["wavelengths"], data["grid"]["resolution"])
     summary["result_file"] = str(args.result)
     if args.json:
@@ -320,6 +336,94 @@ def cmd_plot(args):
     return 0
 
 
+def cmd_report(args):
+    import tomllib
+    from postprocess import report
+    from postprocess.results import read_results
+    from .case import parse_case
+
+    source = Path(args.source)
+    if source.is_dir():
+        from postprocess.collect import IncompleteSweep, collect, point_summaries, read_sweep
+        from . import sweep
+
+        the_plan = sweep.read_plan(source)
+        if args.na is not None:
+            first = parse_case(tomllib.loads(the_plan["points"][0]["case_toml"]), source=f"{source}/plan.json")
+            the_plan["collection"] = {"na": _with_na(first, args.na).collection.na}
+        try:
+            collect(source, the_plan)
+            summaries = point_summaries(source, the_plan)
+        except IncompleteSweep as exc:
+            raise CaseError(source, "", str(exc)) from None
+        text = report.sweep_report(source, the_plan, summaries, read_sweep(source / "sweep.h5"))
+        out = Path(args.output) if args.output else source / "report.html"
+    else:
+        data = read_results(source)
+        case = parse_case(tomllib.loads(data["case_resolved"]), source=f"{source}:/case/resolved")
+        case = _with_na(case, args.na)
+        layout = make_layout(case, source=f"{source}:/case/resolved")
+        text = report.result_report(data, case, layout)
+        out = Path(args.output) if args.output else source.with_suffix(".html")
+    if not out.parent.is_dir():
+        raise CaseError("command line", "-o", f"the folder of {out} does not exist")
+    partial = out.with_name(out.name + ".partial")
+    partial.write_text(text, encoding="utf-8")
+    os.replace(partial, out)
+    print(f"{out}")
+    return 0
+
+
+def cmd_converge(args):
+    from . import converge
+
+    case, _ = load_case(args.case)
+    make_layout(case, source=args.case)  # the case's own grid must be valid before anything runs
+    result = converge.run(case, args.case, args.resolutions, args.tolerance, args.workers, not args.quiet)
+    which = "the case's resolution" if result["judged_is_case_resolution"] else "the finest resolution run"
+    if args.json:
+        print(json.dumps(result, indent=2))
+        _converge_warning(args.case, result, which)
+        return 0
+    print(f"{args.case}: extraction efficiency at {len(result['levels'])} resolutions")
+    exact = result["levels"][0]["exact"] is not None
+    print(f"\n  {'points/um':>10}  {'pts/wl chip':>11}  {'efficiency':>10}  {'est. error':>10}"
+          + (f"  {'exact':>8}" if exact else "") + f"  {'time/s':>7}")
+    for row in result["levels"]:
+        mark = "  <- the case's" if abs(row["resolution"] - result["case_resolution"]) < 1e-9 else ""
+        print(f"  {row['resolution']:>10.4g}  {row['points_per_wavelength']:>11.1f}  {row['efficiency']:>10.4f}  "
+              f"{row['error_estimate']:>10.4f}" + (f"  {row['exact']:>8.4f}" if exact else "")
+              + f"  {row['wall_time']:>7.1f}{mark}")
+    how = (f"observed order {result['order']:.2f}" if result["order_observed"]
+           else f"assumed order {result['order']:g} (the Yee scheme's)")
+    print(f"\n  extrapolated (Richardson, {how}): {result['extrapolated']:.4f}")
+    if not result["asymptotic"]:
+        print("  the three values do not converge in step: the grids are not in the asymptotic range; "
+              "no error estimate is below the difference between the two finest")
+    print(f"  estimated error at {which} ({result['judged_resolution']:g} points/um): "
+          f"{result['relative_error']:.2%} (tolerance {result['tolerance']:.2%})")
+    sys.stdout.flush()
+    _converge_warning(args.case, result, which)
+    return 0
+
+
+def _converge_warning(case, result, which):
+    if not result["converged"]:
+        print(f"WARNING: {case}: {which} is not converged to {result['tolerance']:.2%}; raise "
+              "grid.points_per_wavelength (or grid.resolution) and check again", file=sys.stderr)
+
+
+def _resolution_list(text):
+    try:
+        values = [float(v) for v in text.split(",")]
+    except ValueError:
+        values = []
+    if not 2 <= len(values) <= 3 or any(not v > 0 for v in values) or len(set(values)) != len(values):
+        raise argparse.ArgumentTypeError(f"must be two or three different positive resolutions (points per um) "
+                                         f"separated by commas, not {text!r}")
+    return values
+
+
 def _fraction(text):
     try:
         value = float(text)
@@ -327,6 +431,16 @@ def _fraction(text):
         value = -1.0
     if not 0 < value < 1:
         raise argparse.ArgumentTypeError(f"must be a fraction between 0 and 1, not {text!r}")
+    return value
+
+
+def _positive(text):
+    try:
+        value = float(text)
+    except ValueError:
+        value = -1.0
+    if not value > 0 or value == float("inf"):
+        raise argparse.ArgumentTypeError(f"must be a positive number, not {text!r}")
     return value
 
 
@@ -359,10 +473,16 @@ def build_parser():
     p.add_argument("-o", "--output", help="result file (HDF5); default: CASE's name with .h5, here")
     p.add_argument("--json", action="store_true", help="print the summary as JSON on standard output")
     p.add_argument("--workers", type=_positive_int, help="worker processes (default: number of cores)")
+    p.add_argument("--na", type=_positive, help="numerical aperture of a collection cone in the ambient "
+                   "(overrides [collection])")
+    p.add_argument("--fields", action="store_true", help="also save a picture of the field at the centre "
+                   "wavelength (for 'outcouple report')")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_run)
     p = sub.add_parser("show", help="report the results stored in a result file")
     p.add_argument("result", help="HDF5 result file written by 'outcouple run'")
+    p.add_argument("--na", type=_positive, help="numerical aperture of a collection cone in the ambient "
+                   "(overrides [collection])")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.set_defaults(func=cmd_show)
     p = sub.add_parser("reference", help="exact planar and closed-form reference values of a case (no FDTD)")
@@ -409,6 +529,22 @@ def build_parser():
         p = sub.add_parser(name, help=text)
         p.add_argument("dir", help="sweep folder")
         p.set_defaults(func=func)
+    p = sub.add_parser("report", help="one self-contained HTML report of a result file or a sweep folder")
+    p.add_argument("source", help="HDF5 result file of 'outcouple run', or a sweep folder")
+    p.add_argument("-o", "--output", help="HTML file (default: RESULT with .html, or DIR/report.html)")
+    p.add_argument("--na", type=_positive, help="numerical aperture of a collection cone in the ambient "
+                   "(overrides [collection])")
+    p.set_defaults(func=cmd_report)
+    p = sub.add_parser("converge", help="the case at two or three resolutions, extrapolated, with a verdict")
+    p.add_argument("case", help="TOML case file")
+    p.add_argument("--resolutions", type=_resolution_list, metavar="R1,R2[,R3]",
+                   help="points per um (default: the case's and 0.8 and 0.64 of it)")
+    p.add_argument("--tolerance", type=_fraction, default=0.02,
+                   help="relative error of the case's resolution that counts as converged (default 0.02)")
+    p.add_argument("--workers", type=_positive_int, help="worker processes (default: number of cores)")
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(func=cmd_converge)
     p = sub.add_parser("plot", help="efficiency against one or two swept keys, from sweep.h5")
     p.add_argument("dir", help="sweep folder (after collect)")
     p.add_argument("-o", "--output", help="PNG file (default DIR/sweep.png)")

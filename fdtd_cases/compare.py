@@ -20,7 +20,7 @@ import numpy as np
 from .case import parse_case
 from .errors import CaseError
 from .layout import make_layout
-from .runner import plan_jobs, run_many
+from .runner import run_cases
 
 
 def parse_vary(text):
@@ -73,13 +73,9 @@ def run(points, key, tolerance, rays, workers, progress):
     from postprocess.analysis import analyse
     from postprocess import raytrace
 
-    items = [(case, layout, job) for _, case, layout in points for job in plan_jobs(case, layout)]
-    raw = run_many(items, workers, progress)
-    rows, at = [], 0
-    for value, case, layout in points:
-        jobs = plan_jobs(case, layout)
-        merged = [{**job, **result} for job, result in zip(jobs, raw[at:at + len(jobs)])]
-        at += len(jobs)
+    runs = run_cases([(case, layout) for _, case, layout in points], workers, progress)
+    rows = []
+    for (value, case, layout), merged in zip(points, runs):
         wave = analyse(case, merged, layout.wavelengths, layout.resolution)
         ray = raytrace.run_case(case, layout, rays=rays)
         difference = ray["efficiency"] / wave["efficiency"] - 1 if wave["efficiency"] > 0 else math.inf

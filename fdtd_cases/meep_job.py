@@ -106,7 +106,14 @@ def _region(start, end, resolution):
     return mp.Vector3((x1 + x2) / 2, (y1 + y2) / 2), size
 
 
-def run_job(case, layout, orientation, x0, symmetric):
+def _field_map_region(layout):
+    """The cell inside the absorbing layers: centre and size of the field picture."""
+    top = layout.y_cell_top - layout.pml
+    bottom = layout.y_cell_bottom + (layout.pml if layout.bottom_pml else 0.0)
+    return mp.Vector3(0, (top + bottom) / 2), mp.Vector3(2 * layout.x_side, top - bottom)
+
+
+def run_job(case, layout, orientation, x0, symmetric, field_map=False):
     """Run one job and return its raw results.
 
     Returns
@@ -118,7 +125,10 @@ def run_job(case, layout, orientation, x0, symmetric):
         Fourier transform of the source current per wavelength (Meep's
         ``ldos_Jdata``); ``time_steps``, ``meep_time``, ``wall_time`` (s),
         ``grid_points``, ``stopped_by_decay`` (False when the safety limit
-        ended the run).
+        ended the run). With ``field_map``: ``field_map`` = {component,
+        wavelength, extent (x0, x1, y0, y1), magnitude (ny, nx)}, the magnitude
+        of the field component along z (Ez or Hz) at the centre wavelength
+        over the cell inside the absorbing layers, from a DFT.
     """
     mp.verbosity(0)
     started = time.perf_counter()
@@ -133,6 +143,11 @@ def run_job(case, layout, orientation, x0, symmetric):
                                        yee_grid=True)
         weight = -1.0 if normal.startswith("-") else 1.0
         flux[name] = sim.add_flux(freqs, mp.FluxRegion(center=center, size=size, weight=weight))
+    picture = None
+    if field_map:
+        along_z = saved[0] if saved[0] == "ez" else "hz"
+        center, size = _field_map_region(layout)
+        picture = (along_z, sim.add_dft_fields([_MEEP_COMPONENT[along_z]], [layout.fcen], center=center, size=size))
     crossing = case.chip.index * (layout.cell_x + layout.cell_y)
     limit = 10.0 / layout.fwidth + MAX_RUN_CROSSINGS * crossing
     sim.run(mp.dft_ldos(freqs), until_after_sources=mp.stop_when_dft_decayed(
@@ -152,5 +167,12 @@ def run_job(case, layout, orientation, x0, symmetric):
         "stopped_by_decay": bool(sim.meep_time() < limit),
         "meep_version": mp.__version__,
     }
+    if picture is not None:
+        along_z, obj = picture
+        values = np.abs(sim.get_dft_array(obj, _MEEP_COMPONENT[along_z], 0)).T.astype(np.float32)
+        center, size = _field_map_region(layout)
+        result["field_map"] = {
+            "component": along_z, "wavelength": 1.0 / layout.fcen, "magnitude": values,
+            "extent": (center.x - size.x / 2, center.x + size.x / 2, center.y - size.y / 2, center.y + size.y / 2)}
     result["wall_time"] = time.perf_counter() - started
     return result

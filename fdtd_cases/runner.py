@@ -32,12 +32,12 @@ def _quiet_worker():
     warnings.filterwarnings("ignore", message="The value of the smallest subnormal")
 
 
-def _run_one(case, layout, job):
+def _run_one(case, layout, job, field_map=False):
     from .meep_job import run_job
-    return run_job(case, layout, job["orientation"], job["x"], job["symmetric"])
+    return run_job(case, layout, job["orientation"], job["x"], job["symmetric"], field_map=field_map)
 
 
-def run_jobs(case, layout, jobs, workers=None, progress=True):
+def run_jobs(case, layout, jobs, workers=None, progress=True, field_map=False):
     """Run ``jobs`` of one case and return their raw results in the same order.
 
     Parameters
@@ -46,8 +46,26 @@ def run_jobs(case, layout, jobs, workers=None, progress=True):
         Worker processes (default: the number of cores, at most the number of jobs).
     progress : bool
         Show a progress bar on standard error.
+    field_map : bool
+        Also record each job's field picture (see :func:`fdtd_cases.meep_job.run_job`).
     """
-    return run_many([(case, layout, job) for job in jobs], workers, progress)
+    return run_many([(case, layout, job, field_map) for job in jobs], workers, progress)
+
+
+def run_cases(cases, workers=None, progress=True):
+    """Run every job of several (case, layout) pairs in one pool.
+
+    Returns, for each pair in order, its jobs merged with their raw results
+    (the input of :func:`postprocess.analysis.analyse`).
+    """
+    planned = [plan_jobs(case, layout) for case, layout in cases]
+    raw = run_many([(case, layout, job) for (case, layout), jobs in zip(cases, planned) for job in jobs],
+                   workers, progress)
+    merged, at = [], 0
+    for jobs in planned:
+        merged.append([{**job, **result} for job, result in zip(jobs, raw[at:at + len(jobs)])])
+        at += len(jobs)
+    return merged
 
 
 def run_many(items, workers=None, progress=True, on_result=None, on_error=None):

@@ -90,8 +90,9 @@ def job_id(resolved_toml, orientation, x):
 def plan(data, source):
     """Validate every point (case and grid) before anything runs; the plan as plain data."""
     axes, mode = parse_sweep(data, source)
-    # What says how to run (cluster) or what to vary (sweep) is not part of a job's inputs.
-    base = {k: v for k, v in data.items() if k not in ("sweep", "cluster")}
+    # What says how to run (cluster), what to vary (sweep) or how to report (collection) is not
+    # part of a job's inputs: changing it must not make finished jobs look new.
+    base = {k: v for k, v in data.items() if k not in ("sweep", "cluster", "collection")}
     points = []
     for values in points_of(axes, mode):
         point = base
@@ -103,7 +104,9 @@ def plan(data, source):
         resolved = tomli_w.dumps(resolved_dict(case))
         jobs = [{**job, "id": job_id(resolved, job["orientation"], job["x"])} for job in plan_jobs(case, layout)]
         points.append({"values": values, "case_toml": resolved, "jobs": jobs})
-    return {"case_file": str(source), "mode": mode, "axes": [{"key": k, "values": v.tolist()} for k, v in axes],
+    collection = parse_case(data, source=source).collection
+    return {"case_file": str(source), "mode": mode,
+            "collection": collection.model_dump(exclude_none=True) if collection else None, "axes": [{"key": k, "values": v.tolist()} for k, v in axes],
             "points": points}
 
 

@@ -5,9 +5,14 @@ show`` (on the fields read back from the HDF5 file), so both print the same
 numbers from the same integration.
 """
 
-from . import reference
+import numpy as np
+
+from . import farfield, reference
 from .reference import CATEGORIES
 from .budget import bulk_power, job_fluxes, summarise
+
+FARFIELD_CLOSURE_WARN = 0.02
+"""Far-field integral against the top flux: above this relative difference, a warning."""
 
 
 def reference_applies(case):
@@ -17,7 +22,7 @@ def reference_applies(case):
 
 def exact_reference(case):
     """Exact planar result of the case's line emitter, combined like the FDTD jobs."""
-    result = reference.planar(case, dim=2)
+    result = reference.planar(case, dim=2, farfield=True)
     result["method"] = "exact plane-wave (angular-spectrum) expansion in the flat stack"
     return result
 
@@ -39,9 +44,66 @@ def analyse(case, jobs, wavelengths, resolution):
         for key in ("time_steps", "wall_time", "stopped_by_decay"):
             if key in job:
                 entry[key] = job[key]
+    summary.update(far_field(case, jobs, combined, wavelengths, resolution))
     if reference_applies(case):
         summary["reference"] = exact_reference(case)
+    if case.collection is not None:
+        summary.update(collection_summary(case, summary))
     return summary
+
+
+def far_field(case, jobs, combined, wavelengths, resolution):
+    """Escaped power per degree of ambient angle, combined like the efficiency (DESIGN.md).
+
+    Each job's pattern (from its top line, :func:`postprocess.farfield.line_pattern`)
+    is divided by its bulk power and summed over jobs and wavelengths, then
+    divided by the sum of the emitted powers scaled the same way: the
+    integral over angle is then the efficiency, up to the closure error
+    reported as ``farfield_closure`` (far-field integral / top flux - 1).
+    """
+    angles = farfield.ANGLES
+    per_degree = np.pi / 180
+    total, emitted, top = np.zeros(len(angles)), 0.0, 0.0
+    by_orientation = {}
+    for job, entry in zip(jobs, combined):
+        line = job["lines"]["top"]
+        pattern = farfield.line_pattern(line["fields"], line["start"], line["end"], wavelengths, case.ambient.index,
+                                        resolution=resolution)
+        scaled = (pattern / entry["bulk"][:, None]).sum(axis=0) * per_degree
+        job_emitted = float(np.sum(entry["fluxes"]["emitted"] / entry["bulk"]))
+        total += scaled
+        emitted += job_emitted
+        top += float(np.sum(entry["fluxes"]["top"] / entry["bulk"]))
+        own = by_orientation.setdefault(job["orientation"], [np.zeros(len(angles)), 0.0])
+        own[0] += scaled
+        own[1] += job_emitted
+    intensity = total / emitted
+    return {
+        "farfield": {"angle": angles.tolist(), "intensity": intensity.tolist(),
+                     "lambertian": farfield.lambertian(top / emitted, angles).tolist(),
+                     "by_orientation": {o: (v / e).tolist() for o, (v, e) in by_orientation.items()}},
+        "farfield_closure": float(np.trapz(total, angles) / top - 1) if top > 0 else None,
+    }
+
+
+def collection_summary(case, summary):
+    """``collected`` and ``collection``: the power inside the case's collection cone.
+
+    Beside the FDTD value: a Lambertian pattern carrying the same escaped
+    power (2-D: sin(half-angle) of it) and, for flat cases, the exact planar value.
+    """
+    c = case.collection
+    half = c.half_angle if c.half_angle is not None else farfield.half_angle_from_na(c.na, case.ambient.index)
+    na = c.na if c.na is not None else case.ambient.index * float(np.sin(np.radians(half)))
+    ff = summary["farfield"]
+    fraction = farfield.collected(ff["angle"], ff["intensity"], half)
+    info = {"na": na, "half_angle": half,
+            "of_escaped": fraction / summary["efficiency"] if summary["efficiency"] > 0 else None,
+            "lambertian": summary["efficiency"] * float(np.sin(np.radians(half)))}
+    ref = summary.get("reference")
+    if ref is not None:
+        info["exact"] = farfield.collected(ref["farfield"]["angle"], ref["farfield"]["intensity"], half)
+    return {"collected": fraction, "collection": info}
 
 
 def _pct(a, b):
@@ -83,6 +145,7 @@ def format_report(summary, title):
                    f"{summary['balance_error']:.4f}")
     out.append(f"  emission factor (emitted / bulk power, mean) {summary['emission_factor']:.4f}"
                + (f"   exact {ref['emission_factor']:.4f}" if ref else ""))
+    out += _farfield_lines(summary)
     unstopped = [j for j in summary["jobs"] if j.get("stopped_by_decay") is False]
     if unstopped:
         out.append(f"  WARNING: {len(unstopped)} job(s) hit the run-time limit before the fields decayed; "
@@ -91,3 +154,32 @@ def format_report(summary, title):
         out.append(f"  exact: {ref['method']}")
     return "\n".join(out)
 
+
+
+def _farfield_lines(summary):
+    """The far-field and collection lines of the plain-text report."""
+    ff, ref = summary["farfield"], summary.get("reference")
+    angles, intensity = np.array(ff["angle"]), np.array(ff["intensity"])
+    peak = float(angles[np.argmax(intensity)])
+    half = farfield.half_power_angle(angles, intensity)
+    out = ["", "  far field in the ambient (all jobs and wavelengths; angles from the normal):",
+           f"    peak at {peak:+.0f} deg; half of the escaped power within +/-{half:.1f} deg"
+           + (f" (exact {farfield.half_power_angle(ref['farfield']['angle'], ref['farfield']['intensity']):.1f})"
+              if ref else "") + "; a Lambertian pattern: +/-30.0 deg"]
+    closure = summary["farfield_closure"]
+    if closure is not None:
+        out.append(f"    far-field integral against the top flux {closure:+.2%}")
+        if abs(closure) > FARFIELD_CLOSURE_WARN:
+            out.append(f"  WARNING: the far field misses {abs(closure):.1%} of the top flux: light crosses the top "
+                       "monitor near its ends; a wider grid.width gives a truer far field")
+    if "collected" in summary:
+        c = summary["collection"]
+        row = (f"    collected within NA {c['na']:.3f} (+/-{c['half_angle']:.1f} deg): {summary['collected']:.4f}"
+               f" of the emitted power")
+        if c["of_escaped"] is not None:
+            row += f" ({c['of_escaped']:.1%} of the escaped)"
+        out.append(row)
+        out.append(f"    {'':>10}Lambertian with the same escaped power: {c['lambertian']:.4f}"
+                   + (f"; exact: {c['exact']:.4f}  diff {_pct(summary['collected'], c['exact'])}"
+                      if "exact" in c else ""))
+    return out

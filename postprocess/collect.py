@@ -13,9 +13,14 @@ power-weighting rule. ``sweep.h5``:
 /efficiency_spectrum    shape + (wavelengths,)
 /wavelengths            sampled vacuum wavelengths, µm (those of the first point)
 /flat_baseline          the exact planar efficiency of each point's stack with a flat surface
+/farfield/angle         far-field angles, degrees from the normal (-90 to 90)
+/farfield/intensity     shape + (angles,): fraction of the emitted power per degree
+/collected              with a [collection] table: fraction of the emitted power inside the
+                        cone (attrs: half_angle, degrees)
 
 ``sweep.csv``: one row per point, a column per swept key (named as in the
-case file), then ``efficiency``, the budget and ``flat_baseline``. Both are
+case file), then ``efficiency``, the budget, ``flat_baseline`` and, with a [collection] table,
+``collected``. Both are
 written under temporary names and renamed; collect refuses to write either
 while any job is missing or failed.
 """
@@ -43,7 +48,7 @@ class IncompleteSweep(Exception):
 
 def point_summaries(out_dir, the_plan):
     """The analysed summary of every point, from the job files."""
-    from fdtd_cases.case import parse_case
+    from fdtd_cases.case import Collection, parse_case
 
     jobs_dir = Path(out_dir) / "jobs"
     missing = [job["id"] for point in the_plan["points"] for job in point["jobs"]
@@ -54,6 +59,8 @@ def point_summaries(out_dir, the_plan):
     summaries = []
     for point in the_plan["points"]:
         case = parse_case(tomllib.loads(point["case_toml"]), source=f"{out_dir}/plan.json")
+        if the_plan.get("collection"):
+            case = case.model_copy(update={"collection": Collection(**the_plan["collection"])})
         jobs, grid = [], None
         for job in point["jobs"]:
             data = read_results(jobs_dir / f"{job['id']}.h5")
@@ -92,13 +99,20 @@ def collect(out_dir, the_plan):
         f["efficiency_spectrum"] = grid_of([s["efficiency_spectrum"] for s in summaries])
         f["wavelengths"] = np.array(summaries[0]["wavelengths"])
         f["flat_baseline"] = grid_of([s["flat_baseline"] for s in summaries])
+        f["farfield/angle"] = np.array(summaries[0]["farfield"]["angle"])
+        f["farfield/intensity"] = grid_of([s["farfield"]["intensity"] for s in summaries])
+        if "collected" in summaries[0]:
+            f["collected"] = grid_of([s["collected"] for s in summaries])
+            f["collected"].attrs["half_angle"] = summaries[0]["collection"]["half_angle"]
     csv_partial = out_dir / "sweep.csv.partial"
     with open(csv_partial, "w", newline="") as fh:
         writer = csv.writer(fh)
-        writer.writerow(keys + ["efficiency"] + list(CATEGORIES) + ["flat_baseline"])
+        extra = ["collected"] if "collected" in summaries[0] else []
+        writer.writerow(keys + ["efficiency"] + list(CATEGORIES) + ["flat_baseline"] + extra)
         for point, s in zip(the_plan["points"], summaries):
             writer.writerow([f"{point['values'][k]:.6g}" for k in keys] + [f"{s['efficiency']:.6f}"]
-                            + [f"{s['budget'][c]:.6f}" for c in CATEGORIES] + [f"{s['flat_baseline']:.6f}"])
+                            + [f"{s['budget'][c]:.6f}" for c in CATEGORIES] + [f"{s['flat_baseline']:.6f}"]
+                            + [f"{s[k]:.6f}" for k in extra])
     os.replace(h5_partial, out_dir / "sweep.h5")
     os.replace(csv_partial, out_dir / "sweep.csv")
     return out_dir / "sweep.h5", out_dir / "sweep.csv", summaries

@@ -17,6 +17,10 @@ Layout (all lengths µm; complex arrays are HDF5 compound types (r, i)):
 /jobs/NNN/lines/NAME               attrs: start, end, normal; datasets: one per saved
                                    field component (n_wavelengths, n_samples), Yee grid
 /jobs/NNN/meep_flux/NAME           Meep's own outward flux per wavelength (cross-check)
+/jobs/NNN/field_map                (``run --fields`` only) float32 (ny, nx): magnitude of the
+                                   field along z (Ez or Hz) at the centre wavelength, from a DFT
+                                   over the cell inside the absorbing layers; attrs: component,
+                                   wavelength, extent (x0, x1, y0, y1) µm
 /summary                attrs: json (the summary printed by ``outcouple run --json``)
 
 A file is written under a temporary name and renamed when complete, so a
@@ -71,6 +75,10 @@ def write_results(path, *, case_file, case_text, resolved_toml, layout, jobs, ra
                         lg[component] = values
                 for name, values in result["meep_flux"].items():
                     g[f"meep_flux/{name}"] = values
+                if "field_map" in result:
+                    picture = result["field_map"]
+                    g.create_dataset("field_map", data=picture["magnitude"], compression="gzip")
+                    g["field_map"].attrs.update({k: picture[k] for k in ("component", "wavelength", "extent")})
             f.create_group("summary").attrs["json"] = json.dumps(summary)
         os.replace(partial, path)
     finally:
@@ -116,6 +124,9 @@ def read_results(path):
                        "fields": {c: g["lines"][line][c][()] for c in g["lines"][line]}}
                 for line in g["lines"]}
             job["meep_flux"] = {k: g["meep_flux"][k][()] for k in g["meep_flux"]}
+            if "field_map" in g:
+                job["field_map"] = {"magnitude": g["field_map"][()],
+                                    **{k: _plain(v) for k, v in g["field_map"].attrs.items()}}
             jobs.append(job)
         return {
             "attrs": {k: _plain(v) for k, v in f.attrs.items()},

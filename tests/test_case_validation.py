@@ -41,6 +41,12 @@ BAD = {
                                         "back_index = 1.5"), "chip", "back_index applies only"),
     "emitter below the chip": (GOOD.replace("index = 2.4", "index = 2.4\nthickness = 0.4"), "emitter.depth",
                                "not inside the chip"),
+    "collection with both keys": (GOOD + "[collection]\nna = 0.5\nhalf_angle = 30\n", "collection",
+                                  "exactly one of na and half_angle"),
+    "collection beyond the ambient": (GOOD + "[collection]\nna = 1.2\n", "collection.na",
+                                      "more than the ambient index"),
+    "collection past grazing": (GOOD + "[collection]\nhalf_angle = 95\n", "collection.half_angle",
+                                "less than or equal to 90"),
 }
 
 # Valid cases the FDTD cannot run yet: check and run refuse them, 'reference' accepts them.
@@ -124,3 +130,24 @@ def test_shipped_configs_are_valid(config):
     result = run_cli("check", CONFIGS / config)
     assert result.returncode == 0, result.stderr
     assert "points/wavelength" in result.stdout and "estimate" in result.stdout
+
+
+def test_numerical_aperture_beyond_the_ambient(tmp_path):
+    result = run_cli("run", CONFIGS / "flat_check.toml", "--na", "1.5", "-o", tmp_path / "out.h5", "--quiet")
+    assert result.returncode == 2 and "--na" in result.stderr and "ambient index" in result.stderr, result.stderr
+    assert "Traceback" not in result.stderr and not list(tmp_path.glob("*.h5*"))
+
+
+def test_report_and_converge_refuse_bad_input(tmp_path):
+    other = tmp_path / "other.h5"
+    other.write_bytes(b"not hdf5")
+    result = run_cli("report", other)
+    assert result.returncode == 2 and "other.h5" in result.stderr and "not an HDF5 file" in result.stderr
+    assert not list(tmp_path.glob("*.html*"))
+    result = run_cli("report", tmp_path)
+    assert result.returncode == 2 and "not a sweep folder" in result.stderr
+    for bad in ("24", "24,24", "24,x", "0,24"):
+        result = run_cli("converge", CONFIGS / "flat_check.toml", "--resolutions", bad)
+        assert result.returncode == 2 and "--resolutions" in result.stderr and "Traceback" not in result.stderr
+    result = run_cli("converge", CONFIGS / "flat_check.toml", "--resolutions", "10,20")
+    assert result.returncode == 2 and "--resolutions" in result.stderr and "fewer than 8" in result.stderr
