@@ -8,7 +8,7 @@ OS_PYTHON := /usr/bin/python3
 OS_PACKAGES := python3-meep python3-numpy python3-scipy python3-h5py python3-matplotlib python3-venv python3-pip
 export MPLBACKEND := Agg
 
-.PHONY: setup os-packages slurm mpi-meep demo test bench clean
+.PHONY: setup os-packages slurm mpi-meep browser demo test bench clean
 
 os-packages:
 	@if ! $(OS_PYTHON) -c "import meep, numpy, scipy, h5py, matplotlib, venv, ensurepip" >/dev/null 2>&1; then \
@@ -45,7 +45,11 @@ slurm:
 mpi-meep:
 	@bash scripts/meep_mpi_local.sh || echo "warning: MPI Meep could not be provided; the MPI sweep test will skip"
 
-test: setup slurm mpi-meep
+# Headless Chromium from the OS packages, for the test that looks at the HTML report.
+browser:
+	@bash scripts/chromium_local.sh || echo "warning: Chromium could not be installed; the report rendering test will skip"
+
+test: setup slurm mpi-meep browser
 	@$(PY) -m pytest -q -p no:cacheprovider
 
 bench: setup

@@ -1,9 +1,17 @@
-"""Pictures (matplotlib, headless): the structure with its monitors, efficiency against wavelength."""
+"""Pictures (matplotlib, headless): structure, field, far field, budget, spectra and sweeps.
+
+Every function writes a PNG to ``path``: a file name or a binary file object
+(the HTML report embeds them from memory). The colour scales are the
+package's own: ``FIELD_SCALE`` for field magnitudes (dark slate through teal
+to sand, read in decibels) and ``MAP_SCALE`` for efficiency maps.
+"""
 
 import matplotlib
 
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
+from matplotlib.colors import LinearSegmentedColormap  # noqa: E402
+from matplotlib.ticker import MaxNLocator  # noqa: E402
 import numpy as np  # noqa: E402
 
 CHIP_COLOUR = "#c9b27c"
@@ -12,6 +20,14 @@ MONITOR_COLOUR = "#1f5f8b"
 EMITTER_COLOUR = "#b3261e"
 FILM_COLOURS = ("#7fb3a6", "#a6c98f", "#d9a0b8")
 SUBSTRATE_COLOUR = "#9fa8c7"
+REFERENCE_COLOUR = "#3b3b3b"
+LAMBERT_COLOUR = "#8a8a8a"
+BUDGET_COLOURS = {"top": "#2e8b57", "bottom": "#6b7fa8", "sides": "#d9a441", "absorbed": "#a04b4b"}
+
+FIELD_SCALE = LinearSegmentedColormap.from_list(
+    "outcouple_field", ["#0d1b2a", "#1b3a4b", "#14746f", "#52b69a", "#d9ed92", "#f4e3b2", "#fffaf0"])
+MAP_SCALE = LinearSegmentedColormap.from_list(
+    "outcouple_map", ["#1d2d44", "#3e5c76", "#748cab", "#c9b27c", "#f0ebd8"])
 
 
 def plot_structure(layout, emitter_x, path, title=""):
@@ -51,7 +67,7 @@ def plot_structure(layout, emitter_x, path, title=""):
     ax.set_title(title or "structure (hatched: absorbing layers)")
     ax.legend(loc="lower right", fontsize=7, framealpha=0.9)
     fig.tight_layout()
-    fig.savefig(path)
+    fig.savefig(path, format="png")
     plt.close(fig)
 
 
@@ -71,7 +87,7 @@ def plot_spectra(series, path, reference=None):
     ax.grid(alpha=0.3)
     ax.legend(fontsize=8)
     fig.tight_layout()
-    fig.savefig(path)
+    fig.savefig(path, format="png")
     plt.close(fig)
 
 
@@ -90,14 +106,26 @@ def plot_comparison(key, values, scale, fdtd, rays, errors, differs, path, title
     if bad.any():
         ax.scatter(x[bad], np.asarray(fdtd)[bad], s=220, facecolors="none", edgecolors="#e0a100", linewidths=1.6,
                    label="differ by more than the tolerance", zorder=5)
-    ax.set_xlabel(f"{key} / wavelength in the chip")
-    ax.set_ylabel("extraction efficiency")
+    ax.set_xlabel(f"{key} / wavelength in the chip (no unit)")
+    ax.set_ylabel("extraction efficiency (top / emitted)")
     ax.set_title(title or f"ray optics against full wave: {key}")
     ax.grid(alpha=0.3)
     ax.legend(fontsize=8)
     fig.tight_layout()
-    fig.savefig(path)
+    fig.savefig(path, format="png")
     plt.close(fig)
+
+
+_KEY_UNITS = {"period": "µm", "height": "µm", "depth": "µm", "thickness": "µm", "width": "µm", "wavelength": "µm",
+              "band": "µm", "x": "µm", "rms": "µm", "correlation": "µm", "alpha": "1/cm",
+              "index": "no unit", "back_index": "no unit", "back_extinction": "no unit",
+              "fill": "fraction of the period"}
+
+
+def key_label(key):
+    """An axis label for a case key: the dotted key and its unit, e.g. 'surface.period (µm)'."""
+    unit = _KEY_UNITS.get(key.rsplit(".", 1)[-1], "as in the case file")
+    return f"{key} ({unit})"
 
 
 def plot_sweep(data, path, title=""):
@@ -109,20 +137,128 @@ def plot_sweep(data, path, title=""):
     fig, ax = plt.subplots(figsize=(6.4, 4.2), dpi=120)
     if data["mode"] == "grid" and len(keys) == 2:
         x, y = data["axes"][keys[1]], data["axes"][keys[0]]
-        mesh = ax.pcolormesh(x, y, eff, shading="nearest", cmap="magma")
-        fig.colorbar(mesh, ax=ax, label="extraction efficiency")
-        ax.set_xlabel(keys[1])
-        ax.set_ylabel(keys[0])
+        mesh = ax.pcolormesh(x, y, eff, shading="nearest", cmap=MAP_SCALE)
+        fig.colorbar(mesh, ax=ax, label="extraction efficiency (top / emitted)")
+        ax.set_xlabel(key_label(keys[1]))
+        ax.set_ylabel(key_label(keys[0]))
         ax.set_title(title or f"extraction efficiency (flat baseline {flat.min():.3f} to {flat.max():.3f})")
     else:
         x = data["axes"][keys[0]]
         ax.plot(x, eff.reshape(len(x), -1), marker="o", color=MONITOR_COLOUR, label="FDTD")
         ax.plot(x, flat.reshape(len(x), -1), ls="--", color="k", lw=1, label="flat surface, exact")
-        ax.set_xlabel(keys[0])
-        ax.set_ylabel("extraction efficiency")
+        ax.set_xlabel(key_label(keys[0]))
+        ax.set_ylabel("extraction efficiency (top / emitted)")
         ax.grid(alpha=0.3)
         ax.legend(fontsize=8)
         ax.set_title(title or f"extraction efficiency against {keys[0]}")
     fig.tight_layout()
-    fig.savefig(path)
+    fig.savefig(path, format="png")
+    plt.close(fig)
+
+
+def plot_field_map(field_map, chip_polygon, emitter, path, title="", span_db=40.0):
+    """Magnitude of the field along z at one wavelength, in dB below its peak, with the chip outline.
+
+    Parameters
+    ----------
+    field_map : dict
+        ``magnitude`` (ny, nx), ``extent`` (x0, x1, y0, y1) µm, ``component``
+        ("ez" or "hz") and ``wavelength`` µm, as saved by ``run --fields``.
+    chip_polygon : (N, 2) array
+        Outline of the chip, µm.
+    emitter : (float, float)
+        Emitter position, µm.
+    span_db : float
+        Range of the colour scale below the peak, dB.
+    """
+    magnitude = np.asarray(field_map["magnitude"], dtype=float)
+    level = 20 * np.log10(np.maximum(magnitude, 1e-30) / magnitude.max())
+    x0, x1, y0, y1 = field_map["extent"]
+    fig, ax = plt.subplots(figsize=(8, 3.4), dpi=120)
+    image = ax.imshow(level, origin="lower", extent=(x0, x1, y0, y1), cmap=FIELD_SCALE, vmin=-span_db, vmax=0,
+                      interpolation="bilinear", aspect="equal")
+    poly = np.vstack([chip_polygon, chip_polygon[:1]])
+    ax.plot(poly[:, 0], poly[:, 1], color="#ffffff", lw=0.8, alpha=0.8)
+    ax.plot([emitter[0]], [emitter[1]], marker="*", color=EMITTER_COLOUR, ms=9, mec="white", mew=0.5)
+    ax.set_xlim(x0, x1)
+    ax.set_ylim(y0, y1)
+    ax.set_xlabel("x (µm)")
+    ax.set_ylabel("y (µm)")
+    name = {"ez": "|Ez|", "hz": "|Hz|"}.get(field_map["component"], field_map["component"])
+    fig.colorbar(image, ax=ax, label=f"{name} (dB below peak)", shrink=0.85)
+    ax.set_title(title or f"{name} at {field_map['wavelength']:.4g} µm (white line: chip surface)")
+    fig.tight_layout()
+    fig.savefig(path, format="png")
+    plt.close(fig)
+
+
+def plot_farfield(farfield, path, reference=None, title="", collection=None):
+    """Polar plot of the escaped intensity per degree, with a Lambertian pattern of the same power.
+
+    Parameters
+    ----------
+    farfield : dict
+        ``angle`` (degrees from the normal), ``intensity`` (fraction of the
+        emitted power per degree) and ``lambertian`` (the same, for a
+        Lambertian pattern of the same escaped power).
+    reference : dict, optional
+        An exact far field (``angle``, ``intensity``) drawn dashed.
+    collection : float, optional
+        Half-angle of a collection cone, degrees, drawn as a shaded fan.
+    """
+    theta = np.radians(np.asarray(farfield["angle"], dtype=float))
+    scale = 100.0  # percent per degree reads better than 0.00x
+    fig = plt.figure(figsize=(6.4, 4.2), dpi=120)
+    ax = fig.add_subplot(projection="polar")
+    ax.set_theta_zero_location("N")
+    ax.set_theta_direction(-1)
+    ax.set_thetamin(-90)
+    ax.set_thetamax(90)
+    top = max(np.max(farfield["intensity"]), np.max(farfield["lambertian"]),
+              np.max(reference["intensity"]) if reference else 0.0) * scale * 1.1
+    if collection is not None:
+        fan = np.radians(np.linspace(-collection, collection, 50))
+        ax.fill_between(fan, 0, top, color="#e8f1e4", zorder=0, label=f"collection cone (+/-{collection:.1f} deg)")
+    ax.plot(theta, scale * np.asarray(farfield["intensity"]), color=MONITOR_COLOUR, lw=1.8, label="FDTD")
+    if reference:
+        ax.plot(np.radians(reference["angle"]), scale * np.asarray(reference["intensity"]), ls="--",
+                color=REFERENCE_COLOUR, lw=1.1, label="exact, flat stack")
+    ax.plot(theta, scale * np.asarray(farfield["lambertian"]), ls=":", color=LAMBERT_COLOUR, lw=1.4,
+            label="Lambertian, same escaped power")
+    ax.set_ylim(0, top)
+    ax.set_rlabel_position(-72)
+    ticks = MaxNLocator(4).tick_values(0, top)
+    ax.set_yticks(ticks[(ticks > 0) & (ticks <= top)])
+    ax.tick_params(axis="y", labelsize=7)
+    ax.set_xlabel("angle from the surface normal (degrees); radius: % of the emitted power per degree",
+                  fontsize=8, labelpad=-40)
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, 0.02), fontsize=7, ncol=2, frameon=False)
+    ax.set_title(title or "far field in the ambient")
+    fig.tight_layout()
+    fig.savefig(path, format="png")
+    plt.close(fig)
+
+
+def plot_budget(rows, path, title=""):
+    """Power budget as stacked horizontal bars: ``rows`` is [(label, budget dict), ...]."""
+    from .reference import CATEGORIES
+
+    fig, ax = plt.subplots(figsize=(6.4, 0.9 + 0.55 * len(rows)), dpi=120)
+    for i, (label, budget) in enumerate(rows):
+        left = 0.0
+        for key in CATEGORIES:
+            value = max(float(budget[key]), 0.0)  # a tiny negative absorption is the balance error
+            ax.barh(i, value, left=left, color=BUDGET_COLOURS[key], edgecolor="white",
+                    label=key if i == 0 else None)
+            if value > 0.06:
+                ax.text(left + value / 2, i, f"{value:.1%}", ha="center", va="center", fontsize=7, color="white")
+            left += value
+    ax.set_yticks(range(len(rows)), [label for label, _ in rows])
+    ax.invert_yaxis()
+    ax.set_xlim(0, 1)
+    ax.set_xlabel("fraction of the emitted power")
+    ax.legend(loc="lower left", bbox_to_anchor=(0.0, 1.0), ncol=4, fontsize=7, frameon=False)
+    ax.set_title(title or "where the emitted power goes", pad=18)
+    fig.tight_layout()
+    fig.savefig(path, format="png")
     plt.close(fig)
