@@ -1,6 +1,7 @@
-"""The demo: a gratinged die against the same die flat, budget table and two PNG pictures.
+"""The demo: a gratinged die against the same die flat: budget, light into a lens, pictures, reports.
 
-Run with ``make demo``; writes demo_output/ (result files, structure.png, spectrum.png).
+Run with ``make demo``; writes demo_output/ (result files, structure.png, spectrum.png,
+farfield.png and one HTML report per die).
 """
 
 import json
@@ -13,19 +14,28 @@ HERE = Path(__file__).resolve().parent
 OUT = HERE.parent / "demo_output"
 
 
-def run(case):
-    result = OUT / (case.stem + ".h5")
-    done = subprocess.run([sys.executable, "-m", "fdtd_cases.cli", "run", str(case), "-o", str(result), "--json"],
-                          stdout=subprocess.PIPE, text=True)
+LENS_NA = 0.5
+"""Numerical aperture of the (invented) collection lens above the die."""
+
+
+def outcouple(*args):
+    done = subprocess.run([sys.executable, "-m", "fdtd_cases.cli", *map(str, args)], stdout=subprocess.PIPE, text=True)
     if done.returncode:
         sys.exit(done.returncode)
-    return json.loads(done.stdout)
+    return done.stdout
+
+
+def run(case):
+    result = OUT / (case.stem + ".h5")
+    summary = json.loads(outcouple("run", case, "-o", result, "--json", "--fields", "--na", LENS_NA))
+    outcouple("report", result, "--na", LENS_NA)
+    return summary
 
 
 def main():
     from fdtd_cases.case import load_case
     from fdtd_cases.layout import make_layout
-    from postprocess.plots import plot_spectra, plot_structure
+    from postprocess.plots import plot_farfield, plot_spectra, plot_structure
 
     OUT.mkdir(exist_ok=True)
     started = time.perf_counter()
@@ -43,6 +53,10 @@ def main():
               f"{b['absorbed']:>8.4f} {s['balance_error']:>8.4f} {exact:>7}")
     gain = summaries["demo_grating"]["efficiency"] / summaries["demo_flat"]["efficiency"]
     print(f"\ngrating / flat extraction: {gain:.2f}x")
+    for name, s in summaries.items():
+        c = s["collection"]
+        print(f"{name}: into a lens of NA {LENS_NA} (+/-{c['half_angle']:.0f} deg): {s['collected']:.4f} of the emitted "
+              f"power ({c['of_escaped']:.0%} of what escapes; a Lambertian die would put {c['lambertian']:.4f} there)")
     bounds = json.loads(subprocess.run([sys.executable, "-m", "fdtd_cases.cli", "reference", str(grating), "--json"],
                                        stdout=subprocess.PIPE, text=True, check=True).stdout)
     rays = json.loads(subprocess.run([sys.executable, "-m", "fdtd_cases.cli", "rays", str(grating), "--json", "--quiet"],
@@ -57,7 +71,11 @@ def main():
     case, _ = load_case(grating)
     plot_structure(make_layout(case), case.emitter.x, OUT / "structure.png", "demo: grating die (period 0.42 µm)")
     plot_spectra([("flat", summaries["demo_flat"]), ("grating", summaries["demo_grating"])], OUT / "spectrum.png")
-    print(f"pictures: {OUT / 'structure.png'}, {OUT / 'spectrum.png'}   ({time.perf_counter() - started:.0f} s)")
+    grating_summary = summaries["demo_grating"]
+    plot_farfield(grating_summary["farfield"], OUT / "farfield.png", collection=grating_summary["collection"]["half_angle"],
+                  title="demo: far field of the grating die")
+    print(f"pictures: {OUT / 'structure.png'}, {OUT / 'spectrum.png'}, {OUT / 'farfield.png'}")
+    print(f"reports: {OUT / 'demo_flat.html'}, {OUT / 'demo_grating.html'}   ({time.perf_counter() - started:.0f} s)")
 
 
 if __name__ == "__main__":
