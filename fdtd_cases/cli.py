@@ -3,8 +3,8 @@
     outcouple check CASE
     outcouple run CASE [-o FILE.h5] [--json] [--na NA] [--fields] [--workers N] [--quiet]
     outcouple show FILE.h5 [--json] [--na NA]
-    outcouple reference CASE [--json]
-    outcouple rays CASE [--rays N] [--lateral absorbing|periodic] [--seed S] [--json]
+    outcouple reference CASE [--json] [--na NA]
+    outcouple rays CASE [--rays N] [--lateral absorbing|periodic] [--seed S] [--json] [--na NA]
     outcouple compare CASE --vary KEY=START:STOP:COUNT [--tolerance T] [--rays N] [-o DIR] [--json]
     outcouple sweep CASE --out DIR [--engine local] [--workers N] [--quiet]
     outcouple status DIR | collect DIR | plot DIR [-o FILE.png]
@@ -66,6 +66,12 @@ def cmd_check(args):
           f"(without symmetry), {_human_bytes(est['memory_bytes'])}")
     total = est["seconds"] * len(jobs) / workers
     print(f"  estimate in all    about {total:.0f} s on {workers} worker(s)")
+    if case.collection is not None:
+        from postprocess.farfield import half_angle_from_na
+
+        c = case.collection
+        half = c.half_angle if c.half_angle is not None else half_angle_from_na(c.na, case.ambient.index)
+        print(f"  collection         the fan within +/-{half:.1f} deg of the normal in the ambient (reported after the run)")
     return 0
 
 
@@ -136,9 +142,14 @@ def cmd_show(args):
 def cmd_reference(args):
     from postprocess.reference import case_reference, CATEGORIES
 
+    from postprocess.analysis import collection_summary
+
     case, _ = load_case(args.case)
+    case = _with_na(case, args.na)
     result = case_reference(case)
     result["case"] = str(args.case)
+    if case.collection is not None:
+        result.update(collection_summary(case, result))
     if args.json:
         print(json.dumps(result, indent=2))
         return 0
@@ -166,7 +177,9 @@ def cmd_reference(args):
         bound = result["randomising_bound"]
         print(f"  {'randomising multi-pass':>22}  {bound['line_emitter']:>18.4f}  {bound['point_dipole']:>18.4f}"
               "   (an ideal randomising top over this chip and back)")
-    if line["guided_modes"]:
+    if "collected" in result:
+        _print_collected(result, "line emitter")
+    if line["guided_modes"] and any(line["guided_modes"].values()):
         print(f"\n  guided modes excited at {line['wavelengths'][0]:g} um (effective indices):")
         for pol, label in (("s", "s (E along z)"), ("p", "p (H along z)")):
             if line["guided_modes"].get(pol):
@@ -181,7 +194,10 @@ PERIODIC = ("flat", "grating", "triangle", "sine")
 def cmd_rays(args):
     from postprocess import raytrace
 
+    from postprocess.analysis import collection_summary
+
     case, _ = load_case(args.case)
+    case = _with_na(case, args.na)
     layout = make_layout(case, source=args.case, fdtd=False)
     if args.lateral == "periodic" and case.surface.pattern not in PERIODIC:
         raise CaseError("command line", "--lateral", f"periodic needs a periodic pattern ({', '.join(PERIODIC)}), "
@@ -193,6 +209,8 @@ def cmd_rays(args):
     elapsed = time.perf_counter() - started
     result["lateral"] = args.lateral
     result["events_per_second"] = result["events"] / elapsed if elapsed > 0 else None
+    if case.collection is not None:
+        result.update(collection_summary(case, result))
     if args.json:
         print(json.dumps(result, indent=2))
         return 0
@@ -205,11 +223,19 @@ def cmd_rays(args):
     b = result["budget"]
     print("\n  budget (fractions of the emitted power):")
     print("    " + "   ".join(f"{k} {b[k]:.4f}" for k in ("top", "bottom", "sides", "absorbed", "truncated")))
+    if "collected" in result:
+        _print_collected(result, "rays")
     need = result["rays_for_half_percent"]
     if need:
         print(f"  rays per job for a 0.5% statistical error: about {need:,}")
     print("\n  ray optics: no interference, no diffraction, no change of the emitter's emission by its surroundings")
     return 0
+
+
+def _print_collected(result, what):
+    c = result["collection"]
+    print(f"\n  collected within NA {c['na']:.3f} (+/-{c['half_angle']:.1f} deg), {what}: {result['collected']:.4f} "
+          f"of the emitted power; a Lambertian pattern with the same escaped power: {c['lambertian']:.4f}")
 
 
 def cmd_compare(args):
@@ -487,6 +513,8 @@ def build_parser():
     p.set_defaults(func=cmd_show)
     p = sub.add_parser("reference", help="exact planar and closed-form reference values of a case (no FDTD)")
     p.add_argument("case", help="TOML case file")
+    p.add_argument("--na", type=_positive, help="numerical aperture of a collection cone in the ambient "
+                   "(overrides [collection])")
     p.add_argument("--json", action="store_true", help="print the values as JSON")
     p.set_defaults(func=cmd_reference)
     p = sub.add_parser("rays", help="ray-optics extraction on the same geometry (Monte Carlo, no FDTD)")
@@ -496,6 +524,8 @@ def build_parser():
                    help="lateral boundaries: absorbing like the FDTD's (default) or periodic")
     p.add_argument("--seed", type=int, default=0, help="seed of the random numbers (default 0)")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
+    p.add_argument("--na", type=_positive, help="numerical aperture of a collection cone in the ambient "
+                   "(overrides [collection])")
     p.add_argument("--quiet", action="store_true", help="no progress message")
     p.set_defaults(func=cmd_rays)
     p = sub.add_parser("compare", help="FDTD against ray optics over a range of one case parameter")

@@ -75,3 +75,20 @@ def test_metal_example_runs():
     result = run_cli("reference", CONFIGS / "metal_back.toml")
     assert result.returncode == 0, result.stderr
     assert "absorbed" in result.stdout and "point dipole" in result.stdout
+
+
+def test_collected_fraction_rays_against_exact():
+    """A lens of NA 0.5 over the flat half-space of configs/flat_check.toml: the exact solver's
+    far field integrated over the fan, against Monte-Carlo rays with Fresnel transmission. Below a
+    single interface the escaping wave does not interfere with anything, so ray optics is exact
+    here up to the emitter's near field (0.3 µm is 1.2 chip wavelengths deep). The fan is
+    +/-30 degrees in air, i.e. +/-8.7 degrees inside the n = 3.3 chip."""
+    exact = json.loads(run_cli("reference", CONFIGS / "flat_check.toml", "--na", "0.5", "--json").stdout)
+    rays = json.loads(run_cli("rays", CONFIGS / "flat_check.toml", "--na", "0.5", "--rays", "100000", "--json",
+                              "--quiet").stdout)
+    assert exact["collection"]["half_angle"] == pytest.approx(30.0)
+    # statistical error of the collected fraction: it is a fraction of the escaped one, so at most that error
+    tolerance = 4 * rays["statistical_error"] + 0.002 * exact["collected"]
+    assert rays["collected"] == pytest.approx(exact["collected"], abs=tolerance), \
+        f"rays {rays['collected']:.5f} vs exact {exact['collected']:.5f} (tolerance {tolerance:.5f})"
+    assert exact["collection"]["lambertian"] == pytest.approx(exact["efficiency"] * 0.5)
