@@ -24,7 +24,7 @@ def levels(case, source, resolutions=None):
         factors = DEFAULT_FACTORS
         if densest * DEFAULT_FACTORS[0] < MIN_PPW_ERROR:
             factors = FINER_FACTORS
-        # Whole points per µm: every monitor line then falls on a grid line (see layout).
+        # Whole points per µm: Meep warns about fractional cell sizes otherwise (harmless, but noise).
         resolutions = [float(round(base.resolution * f)) for f in factors]
     out = []
     for resolution in sorted(set(resolutions)):
