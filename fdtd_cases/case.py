@@ -349,6 +349,12 @@ class Collection(_Table):
             raise ValueError("give exactly one of na and half_angle")
         return self
 
+    def degrees(self, n_ambient):
+        """Half-angle of the cone in degrees (from ``na`` = n_ambient sin(half-angle) when given so)."""
+        if self.half_angle is not None:
+            return self.half_angle
+        return math.degrees(math.asin(self.na / n_ambient))
+
 
 class Case(_Table):
     """A whole case file."""

@@ -67,11 +67,8 @@ def cmd_check(args):
     total = est["seconds"] * len(jobs) / workers
     print(f"  estimate in all    about {total:.0f} s on {workers} worker(s)")
     if case.collection is not None:
-        from postprocess.farfield import half_angle_from_na
-
-        c = case.collection
-        half = c.half_angle if c.half_angle is not None else half_angle_from_na(c.na, case.ambient.index)
-        print(f"  collection         the fan within +/-{half:.1f} deg of the normal in the ambient (reported after the run)")
+        print(f"  collection         the fan within +/-{case.collection.degrees(case.ambient.index):.1f} deg of the "
+              "normal in the ambient (reported after the run)")
     return 0
 
 
@@ -487,6 +484,11 @@ class _Parser(argparse.ArgumentParser):
         sys.exit(EXIT_INPUT)
 
 
+def _add_na(parser):
+    parser.add_argument("--na", type=_positive, help="numerical aperture of a collection cone in the ambient "
+                        "(overrides [collection])")
+
+
 def build_parser():
     parser = _Parser(prog="outcouple", description="Light extraction from emitting chips by 2-D FDTD (Meep).")
     parser.add_argument("--version", action="version", version=f"outcouple {__version__}")
@@ -499,22 +501,19 @@ def build_parser():
     p.add_argument("-o", "--output", help="result file (HDF5); default: CASE's name with .h5, here")
     p.add_argument("--json", action="store_true", help="print the summary as JSON on standard output")
     p.add_argument("--workers", type=_positive_int, help="worker processes (default: number of cores)")
-    p.add_argument("--na", type=_positive, help="numerical aperture of a collection cone in the ambient "
-                   "(overrides [collection])")
+    _add_na(p)
     p.add_argument("--fields", action="store_true", help="also save a picture of the field at the centre "
                    "wavelength (for 'outcouple report')")
     p.add_argument("--quiet", action="store_true", help="no progress display")
     p.set_defaults(func=cmd_run)
     p = sub.add_parser("show", help="report the results stored in a result file")
     p.add_argument("result", help="HDF5 result file written by 'outcouple run'")
-    p.add_argument("--na", type=_positive, help="numerical aperture of a collection cone in the ambient "
-                   "(overrides [collection])")
+    _add_na(p)
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     p.set_defaults(func=cmd_show)
     p = sub.add_parser("reference", help="exact planar and closed-form reference values of a case (no FDTD)")
     p.add_argument("case", help="TOML case file")
-    p.add_argument("--na", type=_positive, help="numerical aperture of a collection cone in the ambient "
-                   "(overrides [collection])")
+    _add_na(p)
     p.add_argument("--json", action="store_true", help="print the values as JSON")
     p.set_defaults(func=cmd_reference)
     p = sub.add_parser("rays", help="ray-optics extraction on the same geometry (Monte Carlo, no FDTD)")
@@ -524,8 +523,7 @@ def build_parser():
                    help="lateral boundaries: absorbing like the FDTD's (default) or periodic")
     p.add_argument("--seed", type=int, default=0, help="seed of the random numbers (default 0)")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
-    p.add_argument("--na", type=_positive, help="numerical aperture of a collection cone in the ambient "
-                   "(overrides [collection])")
+    _add_na(p)
     p.add_argument("--quiet", action="store_true", help="no progress message")
     p.set_defaults(func=cmd_rays)
     p = sub.add_parser("compare", help="FDTD against ray optics over a range of one case parameter")
@@ -562,8 +560,7 @@ def build_parser():
     p = sub.add_parser("report", help="one self-contained HTML report of a result file or a sweep folder")
     p.add_argument("source", help="HDF5 result file of 'outcouple run', or a sweep folder")
     p.add_argument("-o", "--output", help="HTML file (default: RESULT with .html, or DIR/report.html)")
-    p.add_argument("--na", type=_positive, help="numerical aperture of a collection cone in the ambient "
-                   "(overrides [collection])")
+    _add_na(p)
     p.set_defaults(func=cmd_report)
     p = sub.add_parser("converge", help="the case at two or three resolutions, extrapolated, with a verdict")
     p.add_argument("case", help="TOML case file")

@@ -93,7 +93,7 @@ def collection_summary(case, summary):
     power (2-D: sin(half-angle) of it) and, for flat cases, the exact planar value.
     """
     c = case.collection
-    half = c.half_angle if c.half_angle is not None else farfield.half_angle_from_na(c.na, case.ambient.index)
+    half = c.degrees(case.ambient.index)
     na = c.na if c.na is not None else case.ambient.index * float(np.sin(np.radians(half)))
     ff = summary["farfield"]
     fraction = farfield.collected(ff["angle"], ff["intensity"], half)
@@ -155,6 +155,9 @@ def format_report(summary, title):
     return "\n".join(out)
 
 
+def _angle(value):
+    return "n/a" if value is None else f"{value:.1f}"
+
 
 def _farfield_lines(summary):
     """The far-field and collection lines of the plain-text report."""
@@ -163,15 +166,15 @@ def _farfield_lines(summary):
     peak = float(angles[np.argmax(intensity)])
     half = farfield.half_power_angle(angles, intensity)
     out = ["", "  far field in the ambient (all jobs and wavelengths; angles from the normal):",
-           f"    peak at {peak:+.0f} deg; half of the escaped power within +/-{half:.1f} deg"
-           + (f" (exact {farfield.half_power_angle(ref['farfield']['angle'], ref['farfield']['intensity']):.1f})"
+           f"    peak at {peak:+.0f} deg; half of the escaped power within +/-{_angle(half)} deg"
+           + (f" (exact {_angle(farfield.half_power_angle(ref['farfield']['angle'], ref['farfield']['intensity']))})"
               if ref else "") + "; a Lambertian pattern: +/-30.0 deg"]
     closure = summary["farfield_closure"]
     if closure is not None:
         out.append(f"    far-field integral against the top flux {closure:+.2%}")
         if abs(closure) > FARFIELD_CLOSURE_WARN:
-            out.append(f"  WARNING: the far field misses {abs(closure):.1%} of the top flux: light crosses the top "
-                       "monitor near its ends; a wider grid.width gives a truer far field")
+            out.append(f"  WARNING: the far field's integral differs from the top flux by {closure:+.1%}: light "
+                       "crosses the top monitor near its ends; a wider grid.width gives a truer far field")
     if "collected" in summary:
         c = summary["collection"]
         row = (f"    collected within NA {c['na']:.3f} (+/-{c['half_angle']:.1f} deg): {summary['collected']:.4f}"

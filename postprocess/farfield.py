@@ -152,11 +152,6 @@ def collected(angles, intensity, half_angle):
     return float(np.trapz(values, grid))
 
 
-def half_angle_from_na(na, n_ambient):
-    """Half-angle (degrees) of a collection cone of numerical aperture ``na`` = n sin(theta) in the ambient."""
-    return float(np.degrees(np.arcsin(na / n_ambient)))
-
-
 def half_power_angle(angles, intensity):
     """Half-angle (degrees) of the fan about the normal that holds half of the pattern's power.
 

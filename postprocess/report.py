@@ -157,7 +157,7 @@ def _grid_facts(case, layout, data, summary):
         warnings.append(f"{ppw['chip']:.1f} points per wavelength in the chip: below the 16 at which a flat "
                         "interface agrees with the exact answer to about 1% (check with outcouple converge)")
     if summary["farfield_closure"] is not None and abs(summary["farfield_closure"]) > 0.02:
-        warnings.append("the far field misses more than 2% of the top flux; widen grid.width")
+        warnings.append("the far field's integral differs from the top flux by more than 2%; widen grid.width")
     return (_table(["", "value"], rows, names=2)
             + "".join(f'<p class="warn">warning: {html.escape(w)}</p>' for w in warnings))
 
@@ -198,8 +198,9 @@ def _farfield(summary):
     body = _figure(plots.plot_farfield, ff, reference=ref["farfield"] if ref else None, collection=half,
                    alt="far-field pattern")
     angles, intensity = np.array(ff["angle"]), np.array(ff["intensity"])
-    rows = [["half-angle holding half the escaped power (degrees)", f"{farfield.half_power_angle(angles, intensity):.1f}",
-             "30.0"]]
+    half_power = farfield.half_power_angle(angles, intensity)
+    rows = [["half-angle holding half the escaped power (degrees)",
+             "n/a" if half_power is None else f"{half_power:.1f}", "30.0"]]
     for fan in (10, 30, 60):
         rows.append([f"fraction of the emitted power within +/-{fan} degrees",
                      _f(farfield.collected(angles, intensity, fan)),

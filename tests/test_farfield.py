@@ -114,5 +114,8 @@ def test_lambertian_collection_is_sine_of_the_half_angle():
 
 def test_numerical_aperture_to_half_angle():
     # NA = n sin(theta): 0.5 in air is 30 degrees; 0.75 in an index-1.5 encapsulant also 30.
-    assert farfield.half_angle_from_na(0.5, 1.0) == pytest.approx(30.0)
-    assert farfield.half_angle_from_na(0.75, 1.5) == pytest.approx(30.0)
+    from fdtd_cases.case import Collection
+
+    assert Collection(na=0.5).degrees(1.0) == pytest.approx(30.0)
+    assert Collection(na=0.75).degrees(1.5) == pytest.approx(30.0)
+    assert Collection(half_angle=12.5).degrees(1.5) == 12.5
