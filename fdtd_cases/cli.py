@@ -367,7 +367,7 @@ def cmd_report(args):
 
     source = Path(args.source)
     if source.is_dir():
-        from postprocess.collect import IncompleteSweep, collect, point_summaries, read_sweep
+        from postprocess.collect import IncompleteSweep, collect, read_sweep
         from . import sweep
 
         the_plan = sweep.read_plan(source)
@@ -375,8 +375,7 @@ def cmd_report(args):
             first = parse_case(tomllib.loads(the_plan["points"][0]["case_toml"]), source=f"{source}/plan.json")
             the_plan["collection"] = {"na": _with_na(first, args.na).collection.na}
         try:
-            collect(source, the_plan)
-            summaries = point_summaries(source, the_plan)
+            _, _, summaries = collect(source, the_plan)
         except IncompleteSweep as exc:
             raise CaseError(source, "", str(exc)) from None
         text = report.sweep_report(source, the_plan, summaries, read_sweep(source / "sweep.h5"))

@@ -102,7 +102,7 @@ def result_report(data, case, layout):
                          f"<pre>{html.escape(data['case_source'])}</pre>"
                          "<details><summary>the case with every default filled in</summary>"
                          f"<pre>{html.escape(data['case_resolved'])}</pre></details>")]
-    sections.append(_section("grid", "Grid and convergence", _grid_facts(case, layout, data, summary)))
+    sections.append(_section("grid", "Grid and convergence", _grid_facts(case, layout, summary)))
     sections.append(_section("structure", "Structure", _figure(
         plots.plot_structure, layout, case.emitter.x, alt="structure with monitors and emitter")))
     sections.append(_section("efficiency", "Extraction efficiency", _efficiency(case, summary)))
@@ -133,7 +133,7 @@ def result_report(data, case, layout):
     return _page(f"Light extraction: {attrs['case_file']}", sections)
 
 
-def _grid_facts(case, layout, data, summary):
+def _grid_facts(case, layout, summary):
     ppw = layout.points_per_wavelength
     jobs = summary["jobs"]
     rows = [
