@@ -446,34 +446,22 @@ def _resolution_list(text):
     return values
 
 
-def _fraction(text):
-    try:
-        value = float(text)
-    except ValueError:
-        value = -1.0
-    if not 0 < value < 1:
-        raise argparse.ArgumentTypeError(f"must be a fraction between 0 and 1, not {text!r}")
-    return value
+def _checked(convert, accept, wanted):
+    """An argparse type: ``convert`` the text, keep it if ``accept`` says so, else say what is ``wanted``."""
+    def parse(text):
+        try:
+            value = convert(text)
+        except ValueError:
+            value = None
+        if value is None or not accept(value):
+            raise argparse.ArgumentTypeError(f"must be {wanted}, not {text!r}")
+        return value
+    return parse
 
 
-def _positive(text):
-    try:
-        value = float(text)
-    except ValueError:
-        value = -1.0
-    if not value > 0 or value == float("inf"):
-        raise argparse.ArgumentTypeError(f"must be a positive number, not {text!r}")
-    return value
-
-
-def _positive_int(text):
-    try:
-        value = int(text)
-    except ValueError:
-        value = 0
-    if value < 1:
-        raise argparse.ArgumentTypeError(f"must be a whole number of at least 1, not {text!r}")
-    return value
+_fraction = _checked(float, lambda v: 0 < v < 1, "a fraction between 0 and 1")
+_positive = _checked(float, lambda v: 0 < v < float("inf"), "a positive number")
+_positive_int = _checked(int, lambda v: v >= 1, "a whole number of at least 1")
 
 
 class _Parser(argparse.ArgumentParser):
