@@ -20,7 +20,7 @@ import time
 
 import numpy as np
 
-from postprocess import multilayer as ml
+from references import multilayer as ml
 
 STACK = ml.Stack(1.0, ((1.8 + 0j, 0.12),), 3.3 + 0j, 0.8, "mirror")
 WAVELENGTHS = np.linspace(0.8, 1.0, 50)

@@ -17,7 +17,7 @@ import time
 
 from fdtd_cases.case import parse_case
 from fdtd_cases.layout import make_layout
-from postprocess import raytrace
+from references import raytrace
 
 GOAL = 2e6
 CASE = {"light": {"wavelength": 1.0},

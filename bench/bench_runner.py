@@ -35,7 +35,7 @@ from fdtd_cases.case import parse_case  # noqa: E402
 from fdtd_cases.layout import make_layout  # noqa: E402
 from fdtd_cases.meep_job import MAX_RUN_CROSSINGS, monitor_lines, run_job  # noqa: E402
 from postprocess.budget import CONTOUR, job_fluxes  # noqa: E402
-from postprocess.planar import half_space  # noqa: E402
+from references.planar import half_space  # noqa: E402
 
 ORIENTATION = "out-of-plane"
 REPEATS = 2

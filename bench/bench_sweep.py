@@ -39,7 +39,7 @@ points_per_wavelength = 32
 
 def sweep(case, out, *extra):
     start = time.perf_counter()
-    done = subprocess.run([sys.executable, "-m", "fdtd_cases.cli", "sweep", str(case), "--out", str(out), "--quiet",
+    done = subprocess.run([sys.executable, "-m", "outcouple.cli", "sweep", str(case), "--out", str(out), "--quiet",
                            *extra], capture_output=True, text=True)
     if done.returncode:
         sys.exit(f"sweep failed: {done.stderr}")

@@ -370,7 +370,7 @@ class Case(_Table):
     collection: Optional[Collection] = None
     """Read by the reports only: it does not change what the FDTD computes."""
     sweep: Optional[dict[str, Any]] = None
-    """Read by ``outcouple sweep`` (fdtd_cases.sweep validates it); check and run use the base case."""
+    """Read by ``outcouple sweep`` (outcouple.sweep validates it); check and run use the base case."""
 
 
 def _table_class(loc):

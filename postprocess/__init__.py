@@ -1,4 +1,4 @@
-"""Post-processing of saved DFT fields: Poynting flux, budget, efficiency, results.
+"""From saved DFT fields to reported numbers: flux, budget, far field, result files, tables, pictures, report.
 
-Plain numpy/scipy/h5py: reads result files and never needs the solver.
+Plain numpy/scipy/h5py/matplotlib: reads result files and never needs the solver.
 """

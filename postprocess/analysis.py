@@ -7,8 +7,10 @@ numbers from the same integration.
 
 import numpy as np
 
-from . import farfield, reference
-from .reference import CATEGORIES
+from references import reference
+
+from . import farfield
+from references.reference import CATEGORIES
 from .budget import bulk_power, job_fluxes, summarise
 
 FARFIELD_CLOSURE_WARN = 0.02

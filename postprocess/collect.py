@@ -35,7 +35,7 @@ import h5py
 import numpy as np
 
 from .analysis import analyse
-from .reference import CATEGORIES, planar
+from references.reference import CATEGORIES, planar
 from .results import read_results
 
 FORMAT = "outcouple-sweep"
@@ -75,7 +75,7 @@ def point_summaries(out_dir, the_plan):
 
 def collect(out_dir, the_plan):
     """Write sweep.h5 and sweep.csv; return their paths and the point summaries."""
-    from fdtd_cases import __version__
+    from outcouple import __version__
 
     out_dir = Path(out_dir)
     summaries = point_summaries(out_dir, the_plan)

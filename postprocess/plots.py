@@ -241,7 +241,7 @@ def plot_farfield(farfield, path, reference=None, title="", collection=None):
 
 def plot_budget(rows, path, title=""):
     """Power budget as stacked horizontal bars: ``rows`` is [(label, budget dict), ...]."""
-    from .reference import CATEGORIES
+    from references.reference import CATEGORIES
 
     fig, ax = plt.subplots(figsize=(6.4, 0.9 + 0.55 * len(rows)), dpi=120)
     for i, (label, budget) in enumerate(rows):

@@ -17,7 +17,7 @@ import numpy as np
 
 from . import farfield, plots
 from .analysis import analyse
-from .reference import CATEGORIES, case_reference
+from references.reference import CATEGORIES, case_reference
 
 STYLE = """
 body { font-family: 'DejaVu Sans', Helvetica, Arial, sans-serif; margin: 2em auto; max-width: 62em;

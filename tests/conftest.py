@@ -38,7 +38,7 @@ requires_meep = pytest.mark.skipif(not meep_available(), reason="Meep (python3-m
 def run_cli(*args, cwd=None):
     """Run ``outcouple`` as a subprocess; return the CompletedProcess."""
     env = dict(os.environ, MPLBACKEND="Agg")
-    return subprocess.run([sys.executable, "-m", "fdtd_cases.cli", *map(str, args)], capture_output=True,
+    return subprocess.run([sys.executable, "-m", "outcouple.cli", *map(str, args)], capture_output=True,
                           text=True, cwd=cwd, env=env, timeout=600)
 
 

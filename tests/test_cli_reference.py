@@ -6,8 +6,8 @@ import math
 import pytest
 
 from conftest import CONFIGS, run_cli
-from postprocess import closed_forms
-from postprocess import multilayer as ml
+from references import closed_forms
+from references import multilayer as ml
 
 FLAT = """
 [light]

@@ -6,7 +6,7 @@ import h5py
 import pytest
 
 from conftest import requires_meep, run_cli
-from postprocess import planar
+from references import planar
 
 pytestmark = [requires_meep, pytest.mark.fdtd]
 

@@ -1,4 +1,4 @@
-"""Closed forms (postprocess.closed_forms) against published formulas and independent integrals."""
+"""Closed forms (references.closed_forms) against published formulas and independent integrals."""
 
 import math
 
@@ -7,8 +7,8 @@ import pytest
 import tmm
 from scipy import integrate
 
-from postprocess import closed_forms as cf
-from postprocess import multilayer as ml
+from references import closed_forms as cf
+from references import multilayer as ml
 
 
 def _pattern_3d(orientation, theta):

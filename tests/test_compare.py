@@ -17,7 +17,7 @@ def test_compare_writes_table_csv_and_plot(tmp_path):
     and the FDTD value equal to the exact planar one within 3% (the FDTD column is what `run`
     would print; the exact solver is checked in test_multilayer.py)."""
     from fdtd_cases.case import parse_case
-    from postprocess.reference import planar
+    from references.reference import planar
 
     case = tmp_path / "flat.toml"
     case.write_text(CASE)

@@ -61,7 +61,7 @@ def _converge(tmp_path, orientation, *extra):
 @pytest.mark.fdtd
 @pytest.mark.parametrize("orientation", ["out-of-plane", "normal"])
 def test_converge_extrapolates_towards_the_exact_answer(tmp_path, orientation):
-    # The exact planar answer (postprocess.multilayer, checked in test_multilayer.py) is the
+    # The exact planar answer (references.multilayer, checked in test_multilayer.py) is the
     # grid-converged value. Measured at 12 points per wavelength (levels 19, 24, 30 per µm):
     # out-of-plane 0.1222 / 0.1275 / 0.1272 -> 0.1267 (exact 0.1270); normal 0.0271 / 0.0259 /
     # 0.0264 -> 0.0271 (exact 0.0270).

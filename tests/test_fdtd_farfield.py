@@ -1,7 +1,7 @@
 """Far field of FDTD runs: closure on the top flux, and the exact planar angular distribution.
 
 The flat chip (index 2.0 under air, emitter 0.5 µm deep, 1 µm wavelength) has an exact answer
-from postprocess.multilayer (checked itself against tmm, image theory and the Novotny-Hecht
+from references.multilayer (checked itself against tmm, image theory and the Novotny-Hecht
 integral in test_multilayer.py). The domain is 24 wavelengths wide so that the light crossing
 the top monitor near its ends, which the far field of a finite line cannot place, stays below
 1% (measured: 0.1-0.5% at this width, 0.1-2.7% at the default 8 wavelengths).

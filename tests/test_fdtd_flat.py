@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 from conftest import requires_meep, run_in_process
-from postprocess import planar
+from references import planar
 from postprocess.budget import bulk_power
 
 pytestmark = [requires_meep, pytest.mark.fdtd]
@@ -28,7 +28,7 @@ def flat_case(n_chip, depth=0.35, ppw=24, **extra):
 @pytest.mark.parametrize("n_chip", [2.5, 3.5])
 @pytest.mark.parametrize("orientation", ORIENTATIONS)
 def test_flat_half_space_against_exact(n_chip, orientation):
-    """Efficiency within 2% of the exact angular-spectrum answer (postprocess.planar, derived there and
+    """Efficiency within 2% of the exact angular-spectrum answer (references.planar, derived there and
     checked against tmm and closed forms); lossless balance within 2%; our flux integration against
     Meep's own flux monitors."""
     case, layout, raw, flux = run_in_process(flat_case(n_chip), orientation)

@@ -1,7 +1,7 @@
 """Ray optics against full wave (FDTD) on the same geometry and domain.
 
 Both run through the package as `outcouple compare` runs them: the FDTD jobs through the runner
-and analysis, the rays through postprocess.raytrace on the FDTD layout (absorbing sides where the
+and analysis, the rays through references.raytrace on the FDTD layout (absorbing sides where the
 FDTD has its side monitors). Cases found by a study of several patterns (periods, depths, widths,
 bands); the numbers measured there are in the README.
 """
@@ -11,8 +11,8 @@ import pytest
 from conftest import requires_meep
 from fdtd_cases.case import parse_case
 from fdtd_cases.layout import make_layout
-from postprocess import raytrace
-from postprocess.reference import planar
+from references import raytrace
+from references.reference import planar
 from test_fdtd_stacks import run_case
 
 pytestmark = [requires_meep, pytest.mark.fdtd]

@@ -1,6 +1,6 @@
 """FDTD (Meep) against the exact planar solver on flat stacks: films and back sides.
 
-The exact solver (postprocess.multilayer) is itself checked against tmm, image theory, the
+The exact solver (references.multilayer) is itself checked against tmm, image theory, the
 textbook dipole integrals and energy conservation in test_multilayer.py. Jobs run through the
 package's runner and analysis, as ``outcouple run`` runs them, two worker processes at a time.
 """
@@ -9,7 +9,7 @@ import pytest
 
 from conftest import requires_meep
 from fdtd_cases.case import parse_case
-from postprocess.reference import planar
+from references.reference import planar
 
 pytestmark = [requires_meep, pytest.mark.fdtd]
 

@@ -1,4 +1,4 @@
-"""The exact planar solver (postprocess.multilayer) against outside references (no Meep needed)."""
+"""The exact planar solver (references.multilayer) against outside references (no Meep needed)."""
 
 import math
 
@@ -7,8 +7,8 @@ import pytest
 import tmm
 from scipy import integrate, special
 
-from postprocess import multilayer as ml
-from postprocess import planar
+from references import multilayer as ml
+from references import planar
 
 ORIENTATIONS = ml.ORIENTATIONS
 AR_FILMS = ((1.73 + 0j, 0.1445),)

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 import tmm
 
-from postprocess import closed_forms, planar
+from references import closed_forms, planar
 
 ORIENTATIONS = planar.ORIENTATIONS
 

@@ -1,4 +1,4 @@
-"""The ray tracer (postprocess.raytrace) against closed forms, the exact solver and path counts."""
+"""The ray tracer (references.raytrace) against closed forms, the exact solver and path counts."""
 
 import json
 import math
@@ -9,7 +9,7 @@ import pytest
 from conftest import run_cli
 from fdtd_cases.case import parse_case
 from fdtd_cases.layout import make_layout
-from postprocess import closed_forms, multilayer, raytrace
+from references import closed_forms, multilayer, raytrace
 
 ORIENTATIONS = ("parallel", "normal", "out-of-plane")
 

@@ -109,7 +109,7 @@ def test_unreachable_slurm_is_a_clear_error(tmp_path):
     case = tmp_path / "sweep.toml"
     case.write_text(SWEEP)
     env = dict(os.environ, PATH="/nonexistent")
-    result = subprocess.run([sys.executable, "-m", "fdtd_cases.cli", "sweep", str(case), "--out", str(tmp_path / "x"),
+    result = subprocess.run([sys.executable, "-m", "outcouple.cli", "sweep", str(case), "--out", str(tmp_path / "x"),
                              "--engine", "slurm"], capture_output=True, text=True, env=env, timeout=120)
     assert result.returncode == 2 and "--engine" in result.stderr and "sbatch" in result.stderr, result.stderr
     assert not list((tmp_path / "x").glob("jobs/*.h5"))

@@ -8,9 +8,9 @@ valid grid, the levels are 1, 1.25 and 1.5625 times it. ``--resolutions``
 chooses the levels.
 """
 
-from .errors import CaseError
-from .layout import MIN_PPW_ERROR, make_layout
-from .runner import run_cases
+from fdtd_cases.errors import CaseError
+from fdtd_cases.layout import MIN_PPW_ERROR, make_layout
+from fdtd_cases.runner import run_cases
 
 DEFAULT_FACTORS = (0.8, 1.0, 1.25)
 FINER_FACTORS = (1.0, 1.25, 1.5625)

@@ -1,4 +1,4 @@
-"""Entry point of one SLURM array task: ``python -m fdtd_cases.sweep_task DIR BATCH INDEX``."""
+"""Entry point of one SLURM array task: ``python -m outcouple.sweep_task DIR BATCH INDEX``."""
 
 import sys
 import warnings

@@ -7,14 +7,14 @@ vertices), with:
 - emission from each emitter position with the line emitter's angular
   pattern (per radian: out-of-plane uniform; parallel cos^2 and normal
   sin^2 of the angle from the surface normal, as in
-  :func:`postprocess.planar.pattern`);
+  :func:`references.planar.pattern`);
 - polarisation carried along: an out-of-plane current radiates s (E along
   z) light, an in-plane one p light, and in 2-D a ray keeps its
   polarisation at every interface;
 - Fresnel reflection and refraction at every crossing of the surface in
   either direction (light that leaves one facet may re-enter another),
   with thin films on the surface through their exact coherent
-  coefficients at the local angle (:func:`postprocess.multilayer.response`,
+  coefficients at the local angle (:func:`references.multilayer.response`,
   the films taken as conformal and of negligible thickness for the ray
   path); light absorbed in a film counts as absorbed;
 - Beer-Lambert absorption in the chip (intensity coefficient alpha);

@@ -25,10 +25,10 @@ from pathlib import Path
 import tomli_w
 
 from . import __version__
-from .case import load_case, resolved_dict
-from .errors import CaseError
-from .layout import make_layout
-from .runner import plan_jobs, run_jobs
+from fdtd_cases.case import load_case, resolved_dict
+from fdtd_cases.errors import CaseError
+from fdtd_cases.layout import make_layout
+from fdtd_cases.runner import plan_jobs, run_jobs
 
 EXIT_INPUT = 2
 
@@ -74,7 +74,7 @@ def cmd_check(args):
 
 def _with_na(case, na):
     """The case with the command line's collection cone, which overrides a [collection] table."""
-    from .case import Collection
+    from fdtd_cases.case import Collection
 
     if na is None:
         return case
@@ -119,7 +119,7 @@ def cmd_run(args):
 def cmd_show(args):
     from postprocess.analysis import analyse, format_report
     from postprocess.results import read_results
-    from .case import parse_case
+    from fdtd_cases.case import parse_case
     import tomllib
 
     data = read_results(args.result)
@@ -137,7 +137,7 @@ def cmd_show(args):
 
 
 def cmd_reference(args):
-    from postprocess.reference import case_reference, CATEGORIES
+    from references.reference import case_reference, CATEGORIES
 
     from postprocess.analysis import collection_summary
 
@@ -189,7 +189,7 @@ PERIODIC = ("flat", "grating", "triangle", "sine")
 
 
 def cmd_rays(args):
-    from postprocess import raytrace
+    from references import raytrace
 
     from postprocess.analysis import collection_summary
 
@@ -363,7 +363,7 @@ def cmd_report(args):
     import tomllib
     from postprocess import report
     from postprocess.results import read_results
-    from .case import parse_case
+    from fdtd_cases.case import parse_case
 
     source = Path(args.source)
     if source.is_dir():

@@ -19,11 +19,11 @@ from pathlib import Path
 import numpy as np
 import tomli_w
 
-from .case import parse_case, resolved_dict
+from fdtd_cases.case import parse_case, resolved_dict
 from .compare import with_value
-from .errors import CaseError
-from .layout import make_layout
-from .runner import plan_jobs
+from fdtd_cases.errors import CaseError
+from fdtd_cases.layout import make_layout
+from fdtd_cases.runner import plan_jobs
 
 MODES = ("grid", "zip")
 PLAN = "plan.json"
@@ -181,7 +181,7 @@ def write_job(out_dir, case, layout, job, raw, point):
 def run_local(out_dir, workers=None, progress=True):
     """Run every job that is missing or failed, in local worker processes; returns how many ran."""
     import tomllib
-    from .runner import run_many
+    from fdtd_cases.runner import run_many
 
     the_plan = read_plan(out_dir)
     todo = []
@@ -209,7 +209,7 @@ def run_local(out_dir, workers=None, progress=True):
 
 # --- SLURM engine -------------------------------------------------------------------------------
 # One submission is a job array over the jobs that were missing or failed when it was made; its
-# list lives in slurm/batch-N.json, and array task i runs entry i (python -m fdtd_cases.sweep_task).
+# list lives in slurm/batch-N.json, and array task i runs entry i (python -m outcouple.sweep_task).
 
 SLURM = "slurm"
 
@@ -237,7 +237,7 @@ def batch_script(out_dir, batch_file, count, cluster, python):
         lines.append(f"#SBATCH --cpus-per-task={ranks}")
     lines += [f"#SBATCH {line}" for line in cluster.get("extra", [])]
     launch = cluster.get("mpi_launch", "mpirun -np {ranks}").format(ranks=ranks) + " " if ranks > 1 else ""
-    lines.append(f'exec {launch}"{python}" -m fdtd_cases.sweep_task "{out_dir}" "{Path(batch_file).resolve()}" '
+    lines.append(f'exec {launch}"{python}" -m outcouple.sweep_task "{out_dir}" "{Path(batch_file).resolve()}" '
                  '"$SLURM_ARRAY_TASK_ID"')
     return "\n".join(lines) + "\n"
 
@@ -325,7 +325,7 @@ def run_task(out_dir, batch_file, index):
     next; the task exits non-zero if any failed.
     """
     import tomllib
-    from .meep_job import is_master, run_job
+    from fdtd_cases.meep_job import is_master, run_job
 
     # Under MPI every rank runs the simulation; only the master writes files (Meep's rule).
     master = is_master()

@@ -17,10 +17,10 @@ from pathlib import Path
 
 import numpy as np
 
-from .case import parse_case
-from .errors import CaseError
-from .layout import make_layout
-from .runner import run_cases
+from fdtd_cases.case import parse_case
+from fdtd_cases.errors import CaseError
+from fdtd_cases.layout import make_layout
+from fdtd_cases.runner import run_cases
 
 
 def parse_vary(text):
@@ -71,7 +71,7 @@ def prepare(data, source, key, values):
 def run(points, key, tolerance, rays, workers, progress):
     """FDTD and rays for every point; rows of the comparison table."""
     from postprocess.analysis import analyse
-    from postprocess import raytrace
+    from references import raytrace
 
     runs = run_cases([(case, layout) for _, case, layout in points], workers, progress)
     rows = []

@@ -1,10 +1,10 @@
 """Reference values of a case from the models that need no FDTD.
 
-For a flat case: the exact planar result (:mod:`postprocess.multilayer`)
+For a flat case: the exact planar result (:mod:`references.multilayer`)
 for the 2-D line emitter the FDTD simulates and for the 3-D point dipole
 in the same stack. For a patterned case: the same numbers for the flat
 surface of the same stack (a baseline, what the pattern must beat) and the
-randomising-surface multi-pass estimate (:mod:`postprocess.closed_forms`),
+randomising-surface multi-pass estimate (:mod:`references.closed_forms`),
 which is what an ideal scattering texture would reach; both are bounds to
 compare against, not predictions of the pattern.
 
@@ -16,7 +16,7 @@ and escaped powers (fractions of the bulk power) add directly.
 import numpy as np
 
 from . import closed_forms, multilayer
-from .farfield import ANGLES as FARFIELD_ANGLES
+from postprocess.farfield import ANGLES as FARFIELD_ANGLES
 
 CATEGORIES = ("top", "bottom", "sides", "absorbed")
 
@@ -45,7 +45,7 @@ def planar(case, dim=2, modes=False, farfield=False):
         2: the line emitter (what the FDTD simulates); 3: the point dipole.
     modes : bool
         Compute the guided power from the guided modes (independent check,
-        ``balance_error``), see :func:`postprocess.multilayer.emitter`.
+        ``balance_error``), see :func:`references.multilayer.emitter`.
     farfield : bool
         Add ``farfield``: escaped power per degree of ambient angle.
 
