@@ -20,6 +20,7 @@ import time
 
 import numpy as np
 
+from fdtd_cases.case import ORIENTATIONS
 from references import multilayer as ml
 
 STACK = ml.Stack(1.0, ((1.8 + 0j, 0.12),), 3.3 + 0j, 0.8, "mirror")
@@ -45,9 +46,9 @@ def best_of(runs, *args, **kwargs):
 def main():
     rows = [
         ("2-D line emitter, parallel", best_of(3, ["parallel"])),
-        ("2-D line emitter, three orientations", best_of(3, ml.ORIENTATIONS)),
-        ("3-D point dipole, three orientations", best_of(3, ml.ORIENTATIONS, dim=3)),
-        ("2-D, three orientations, guided modes found", best_of(3, ml.ORIENTATIONS, modes=True)),
+        ("2-D line emitter, three orientations", best_of(3, ORIENTATIONS)),
+        ("3-D point dipole, three orientations", best_of(3, ORIENTATIONS, dim=3)),
+        ("2-D, three orientations, guided modes found", best_of(3, ORIENTATIONS, modes=True)),
     ]
     print(f"exact planar solver, {len(WAVELENGTHS)} wavelengths per evaluation (goal: well under {GOAL:g} s)")
     print(f"  {'evaluation':<46} {'seconds':>8} {'/ goal':>8}")

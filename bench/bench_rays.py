@@ -15,7 +15,7 @@ Run with ``make bench`` or ``.venv/bin/python bench/bench_rays.py``.
 
 import time
 
-from fdtd_cases.case import parse_case
+from fdtd_cases.case_file import parse_case
 from fdtd_cases.layout import make_layout
 from references import raytrace
 

@@ -31,7 +31,7 @@ warnings.filterwarnings("ignore", message=".*smallest subnormal.*", category=Use
 import meep as mp  # noqa: E402
 import numpy as np  # noqa: E402
 
-from fdtd_cases.case import parse_case  # noqa: E402
+from fdtd_cases.case_file import parse_case  # noqa: E402
 from fdtd_cases.layout import make_layout  # noqa: E402
 from fdtd_cases.meep_job import MAX_RUN_CROSSINGS, monitor_lines, run_job  # noqa: E402
 from postprocess.budget import CONTOUR, job_fluxes  # noqa: E402

@@ -33,7 +33,7 @@ def run(case):
 
 
 def main():
-    from fdtd_cases.case import load_case
+    from fdtd_cases.case_file import load_case
     from fdtd_cases.layout import make_layout
     from postprocess.plots import plot_farfield, plot_spectra, plot_structure
 

@@ -6,24 +6,25 @@ Lengths are micrometres, wavelengths are vacuum wavelengths, the chip's
 attenuation coefficient ``alpha`` is in 1/cm (the unit of the trade).
 
 Validation of each table on its own happens here (types, signs, allowed
-values); checks that need the derived grid (points per wavelength, the
+values); reading a file and turning pydantic's errors into messages that
+name the key happens in :mod:`fdtd_cases.case_file`; checks that need the derived grid (points per wavelength, the
 emitter's clearance from the surface) happen in :mod:`fdtd_cases.layout`.
 Nothing deeper in the numerics re-checks input.
 """
 
 import math
-import tomllib
-from pathlib import Path
-from typing import Annotated, Any, Literal, Optional, Union, get_args, get_origin
+from typing import Annotated, Any, Literal, Optional, Union
 
 import numpy as np
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+from pydantic import BaseModel, ConfigDict, Field, PrivateAttr, field_validator, model_validator
 
 from .attenuation import per_um
-from .errors import CaseError
 
 ORIENTATIONS = ("parallel", "normal", "out-of-plane")
-"""Directions of the emitting current: along x, along y, along z."""
+"""Directions of the emitting current: along x, along y, along z (docs/conventions.md)."""
+
+CATEGORIES = ("top", "bottom", "sides", "absorbed")
+"""The power budget's entries, fractions of the emitted power (docs/conventions.md)."""
 
 Length = Annotated[float, Field(gt=0, allow_inf_nan=False)]
 
@@ -370,117 +371,6 @@ class Case(_Table):
     collection: Optional[Collection] = None
     """Read by the reports only: it does not change what the FDTD computes."""
     sweep: Optional[dict[str, Any]] = None
-    """Read by ``outcouple sweep`` (outcouple.sweep validates it); check and run use the base case."""
-
-
-def _table_class(loc):
-    """The model class that owns the key at ``loc`` (for listing allowed keys)."""
-    cls = Case
-    for part in loc[:-1]:
-        if isinstance(part, int):
-            continue  # an entry of an array of tables, such as [[film]]
-        field = cls.model_fields.get(part)
-        if field is None:
-            return None
-        annotation = field.annotation
-        if get_origin(annotation) is list:
-            annotation = get_args(annotation)[0]
-        if isinstance(annotation, type) and issubclass(annotation, BaseModel):
-            cls = annotation
-        else:
-            return None
-    return cls
-
-
-def _describe(error, surface_pattern):
-    """Turn one pydantic error into (key path, message)."""
-    loc = [part for part in error["loc"]]
-    # Drop the tag pydantic inserts for the surface union, e.g. ("surface", "grating", "period").
-    if len(loc) >= 2 and loc[0] == "surface" and loc[1] in ("flat", "grating", "triangle", "sine", "random", "profile"):
-        loc = [loc[0]] + loc[2:]
-    key = ""
-    for part in loc:
-        key += f"[{part}]" if isinstance(part, int) else (f".{part}" if key else str(part))
-    kind = error["type"]
-    if kind == "extra_forbidden":
-        if loc[0] == "surface" and surface_pattern:
-            cls = {"flat": Flat, "grating": Grating, "triangle": Triangle, "sine": Sine,
-                   "random": Random, "profile": Profile}[surface_pattern]
-        else:
-            cls = _table_class(loc)
-        allowed = ", ".join(cls.model_fields) if cls is not None else ""
-        return key, f"unknown key; allowed here: {allowed}" if allowed else "unknown key"
-    if kind == "missing":
-        return key, "required key is missing"
-    if kind == "union_tag_invalid" or kind == "union_tag_not_found":
-        return "surface.pattern", ('must be one of "flat", "grating", "triangle", "sine", '
-                                   '"random", "profile"')
-    message = error["msg"]
-    if message.startswith("Value error, "):
-        message = message[len("Value error, "):]
-    if kind.endswith("_type"):
-        message = f"{message} (got {type(error.get('input')).__name__} {error.get('input')!r})"
-    return key, message
-
-
-def parse_case(data, source="case"):
-    """Validate a dict read from TOML into a :class:`Case`.
-
-    Raises
-    ------
-    CaseError
-        Naming the source, the key and what is allowed. All problems found are
-        listed, one per line.
-    """
-    try:
-        case = Case.model_validate(data)
-    except ValidationError as exc:
-        pattern = None
-        if isinstance(data.get("surface"), dict):
-            pattern = data["surface"].get("pattern")
-        lines = [_describe(error, pattern) for error in exc.errors()]
-        key, message = lines[0]
-        if len(lines) > 1:
-            rest = "\n".join(f"  {source}: {k}: {m}" for k, m in lines[1:])
-            message = f"{message}\n{rest}"
-        raise CaseError(source, key, message) from None
-    depth, thickness = case.emitter.depth, case.chip.thickness
-    if depth >= thickness:
-        raise CaseError(source, "emitter.depth", f"is {depth:g} µm, not inside the chip "
-                        f"(chip.thickness = {thickness:g} µm)")
-    if case.collection is not None and case.collection.na is not None and case.collection.na > case.ambient.index:
-        raise CaseError(source, "collection.na", f"is {case.collection.na:g}, more than the ambient index "
-                        f"{case.ambient.index:g} (na = n_ambient sin(half-angle))")
-    return case
-
-
-def load_case(path):
-    """Read and validate a TOML case file.
-
-    Returns
-    -------
-    case : Case
-    text : str
-        The file's text, kept with the results.
-    """
-    path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise CaseError(path, "", "no such file") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise CaseError(path, "", f"cannot be read ({exc})") from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise CaseError(path, "", f"is not valid TOML: {exc}") from None
-    return parse_case(data, source=path), text
-
-
-def resolved_dict(case):
-    """The case with every default filled in, as plain TOML-ready data.
-
-    Infinite thickness is kept as the float ``inf`` (valid TOML); absent
-    optional values are left out.
-    """
-    return case.model_dump(exclude_none=True)
+    """Read by ``outcouple sweep`` (outcouple.sweeps validates it); check and run use the base case."""
+    _origin: tuple = PrivateAttr(default=("case", None))
+    """(where the case came from, its text as given or None): kept with the results; not a key."""

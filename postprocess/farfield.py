@@ -55,6 +55,9 @@ import numpy as np
 ANGLES = np.linspace(-90.0, 90.0, 181)
 """Far-field angles, degrees from the surface normal, positive towards +x."""
 
+CLOSURE_WARN = 0.02
+"""Far-field integral against the top flux: above this relative difference, reports warn."""
+
 
 def _transform(values, start, end, half_integer, kx):
     """Fourier transform along x of Yee samples: (n_wavelengths, n_points) -> (n_wavelengths, n_angles)."""

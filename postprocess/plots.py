@@ -14,6 +14,8 @@ from matplotlib.colors import LinearSegmentedColormap  # noqa: E402
 from matplotlib.ticker import MaxNLocator  # noqa: E402
 import numpy as np  # noqa: E402
 
+from fdtd_cases.case import CATEGORIES  # noqa: E402
+
 CHIP_COLOUR = "#c9b27c"
 AMBIENT_COLOUR = "#eef4f8"
 MONITOR_COLOUR = "#1f5f8b"
@@ -131,7 +133,7 @@ def key_label(key):
 def plot_sweep(data, path, title=""):
     """Efficiency against one swept key (line, with the flat-surface baseline dashed) or two (map).
 
-    ``data`` is :func:`postprocess.collect.read_sweep`'s output.
+    ``data`` is :func:`postprocess.sweep_file.read_sweep`'s output.
     """
     keys, eff, flat = data["keys"], np.asarray(data["efficiency"]), np.asarray(data["flat_baseline"])
     fig, ax = plt.subplots(figsize=(6.4, 4.2), dpi=120)
@@ -241,8 +243,6 @@ def plot_farfield(farfield, path, reference=None, title="", collection=None):
 
 def plot_budget(rows, path, title=""):
     """Power budget as stacked horizontal bars: ``rows`` is [(label, budget dict), ...]."""
-    from references.reference import CATEGORIES
-
     fig, ax = plt.subplots(figsize=(6.4, 0.9 + 0.55 * len(rows)), dpi=120)
     for i, (label, budget) in enumerate(rows):
         left = 0.0

@@ -1,6 +1,6 @@
 """One self-contained HTML report of a result file or a collected sweep (figures embedded).
 
-The report re-analyses the saved fields (the same numbers as ``outcouple
+The report is given the run's summary (the same numbers as ``outcouple
 show``), draws the pictures of :mod:`postprocess.plots` into memory and
 embeds them as base64 PNG, so the file can be mailed or archived alone. Every
 section has an ``id`` (case, grid, structure, efficiency, budget, farfield,
@@ -15,9 +15,9 @@ from datetime import datetime, timezone
 
 import numpy as np
 
+from fdtd_cases.case import CATEGORIES
+
 from . import farfield, plots
-from .analysis import analyse
-from references.reference import CATEGORIES, case_reference
 
 STYLE = """
 body { font-family: 'DejaVu Sans', Helvetica, Arial, sans-serif; margin: 2em auto; max-width: 62em;
@@ -81,7 +81,7 @@ def _diff(a, b):
     return f"{100 * (a / b - 1):+.2f}%" if b else "n/a"
 
 
-def result_report(data, case, layout):
+def result_report(data, case, layout, summary, bounds=None):
     """HTML text of the report of one result file.
 
     Parameters
@@ -92,9 +92,14 @@ def result_report(data, case, layout):
         The stored resolved case (with any collection cone to report).
     layout : fdtd_cases.layout.Layout
         The layout rebuilt from that case (the same code built the run's).
+    summary : dict
+        The run's summary (:func:`outcouple.summary.summarise` of the saved fields).
+    bounds : dict, optional
+        For a patterned surface, the reference values that bracket it
+        (:func:`references.reference.case_reference`): flat baseline,
+        randomising bound, escape cone.
     """
     grid = data["grid"]
-    summary = analyse(case, data["jobs"], grid["wavelengths"], grid["resolution"])
     attrs = data["attrs"]
     sections = [_section("case", "Case", f"<p>case file <code>{html.escape(str(attrs['case_file']))}</code>, "
                          f"outcouple {html.escape(str(attrs['package_version']))}, Meep "
@@ -105,7 +110,7 @@ def result_report(data, case, layout):
     sections.append(_section("grid", "Grid and convergence", _grid_facts(case, layout, summary)))
     sections.append(_section("structure", "Structure", _figure(
         plots.plot_structure, layout, case.emitter.x, alt="structure with monitors and emitter")))
-    sections.append(_section("efficiency", "Extraction efficiency", _efficiency(case, summary)))
+    sections.append(_section("efficiency", "Extraction efficiency", _efficiency(summary, bounds)))
     rows = [("FDTD", summary["budget"])]
     if summary.get("reference"):
         rows.append(("exact, flat stack", summary["reference"]["budget"]))
@@ -156,13 +161,14 @@ def _grid_facts(case, layout, summary):
     if ppw["chip"] < 16:
         warnings.append(f"{ppw['chip']:.1f} points per wavelength in the chip: below the 16 at which a flat "
                         "interface agrees with the exact answer to about 1% (check with outcouple converge)")
-    if summary["farfield_closure"] is not None and abs(summary["farfield_closure"]) > 0.02:
-        warnings.append("the far field's integral differs from the top flux by more than 2%; widen grid.width")
+    if summary["farfield_closure"] is not None and abs(summary["farfield_closure"]) > farfield.CLOSURE_WARN:
+        warnings.append(f"the far field's integral differs from the top flux by more than "
+                        f"{farfield.CLOSURE_WARN:.0%}; widen grid.width")
     return (_table(["", "value"], rows, names=2)
             + "".join(f'<p class="warn">warning: {html.escape(w)}</p>' for w in warnings))
 
 
-def _efficiency(case, summary):
+def _efficiency(summary, bounds):
     ref = summary.get("reference")
     header = ["", "FDTD"] + (["exact", "difference"] if ref else [])
     rows = []
@@ -182,8 +188,7 @@ def _efficiency(case, summary):
         body += _table(["wavelength (µm)", "FDTD"] + (["exact"] if ref else []), wl_rows)
     if ref:
         body += f"<p class=\"note\">exact: {html.escape(ref['method'])}</p>"
-    else:
-        bounds = case_reference(case, modes=False)
+    elif bounds is not None:
         body += _table(["reference for this patterned surface (not predictions)", "line emitter (2-D)"], [
             ["the same stack with a flat surface (exact)", _f(bounds["efficiency"])],
             ["an ideal randomising top over this chip and back", _f(bounds["randomising_bound"]["line_emitter"])],
@@ -227,9 +232,9 @@ def sweep_report(out_dir, the_plan, summaries, sweep_data):
     the_plan : dict
         The sweep's plan.
     summaries : list of dict
-        Analysed summary of each point (:func:`postprocess.collect.point_summaries`).
+        Summary of each point (:func:`outcouple.sweeps.point_summaries`).
     sweep_data : dict
-        :func:`postprocess.collect.read_sweep` output, for the sweep plot.
+        :func:`postprocess.sweep_file.read_sweep` output, for the sweep plot.
     """
     keys = [a["key"] for a in the_plan["axes"]]
     first = tomllib.loads(the_plan["points"][0]["case_toml"])

@@ -28,15 +28,18 @@ result file that exists is whole.
 """
 
 import json
-import os
 from datetime import datetime, timezone
 from pathlib import Path
 
 import h5py
 import numpy as np
 
+from .files import atomic_write
+
 FORMAT = "outcouple-result"
 FORMAT_VERSION = 1
+"""Version of the result-file layout, shared by run results (this module) and collected sweeps
+(:mod:`postprocess.sweep_file`); sweep job ids include it so that a new layout reruns old jobs."""
 LAYOUT_ATTRS = ("resolution", "cell_x", "cell_y", "y_center", "width", "pml", "y_top", "y_bottom",
                 "x_side", "contour", "depth", "symmetric", "fcen", "fwidth")
 
@@ -47,43 +50,36 @@ class ResultFileError(Exception):
 
 def write_results(path, *, case_file, case_text, resolved_toml, layout, jobs, raw, summary, versions):
     """Write a complete result file at ``path`` (atomically)."""
-    path = Path(path)
-    partial = path.with_name(path.name + ".partial")
-    try:
-        with h5py.File(partial, "w") as f:
-            f.attrs.update({"format": FORMAT, "format_version": FORMAT_VERSION,
-                            "created": datetime.now(timezone.utc).isoformat(timespec="seconds"),
-                            "case_file": str(case_file), **versions})
-            f["case/source"] = case_text
-            f["case/resolved"] = resolved_toml
-            grid = f.create_group("grid")
-            for name in LAYOUT_ATTRS:
-                grid.attrs[name] = getattr(layout, name)
-            grid.attrs["grid_points"] = layout.grid_points
-            grid["wavelengths"] = layout.wavelengths
-            grid["chip_polygon"] = layout.chip_polygon
-            for i, (job, result) in enumerate(zip(jobs, raw)):
-                g = f.create_group(f"jobs/{i:03d}")
-                g.attrs.update(job)
-                for key in ("time_steps", "meep_time", "wall_time", "grid_points", "stopped_by_decay", "meep_version"):
-                    g.attrs[key] = result[key]
-                g["source_current"] = result["source_current"]
-                for name, line in result["lines"].items():
-                    lg = g.create_group(f"lines/{name}")
-                    lg.attrs.update({"start": line["start"], "end": line["end"], "normal": line["normal"]})
-                    for component, values in line["fields"].items():
-                        lg[component] = values
-                for name, values in result["meep_flux"].items():
-                    g[f"meep_flux/{name}"] = values
-                if "field_map" in result:
-                    picture = result["field_map"]
-                    g.create_dataset("field_map", data=picture["magnitude"], compression="gzip")
-                    g["field_map"].attrs.update({k: picture[k] for k in ("component", "wavelength", "extent")})
-            f.create_group("summary").attrs["json"] = json.dumps(summary)
-        os.replace(partial, path)
-    finally:
-        if partial.exists():
-            partial.unlink()
+    with atomic_write(path) as partial, h5py.File(partial, "w") as f:
+        f.attrs.update({"format": FORMAT, "format_version": FORMAT_VERSION,
+                        "created": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+                        "case_file": str(case_file), **versions})
+        f["case/source"] = case_text
+        f["case/resolved"] = resolved_toml
+        grid = f.create_group("grid")
+        for name in LAYOUT_ATTRS:
+            grid.attrs[name] = getattr(layout, name)
+        grid.attrs["grid_points"] = layout.grid_points
+        grid["wavelengths"] = layout.wavelengths
+        grid["chip_polygon"] = layout.chip_polygon
+        for i, (job, result) in enumerate(zip(jobs, raw)):
+            g = f.create_group(f"jobs/{i:03d}")
+            g.attrs.update(job)
+            for key in ("time_steps", "meep_time", "wall_time", "grid_points", "stopped_by_decay", "meep_version"):
+                g.attrs[key] = result[key]
+            g["source_current"] = result["source_current"]
+            for name, line in result["lines"].items():
+                lg = g.create_group(f"lines/{name}")
+                lg.attrs.update({"start": line["start"], "end": line["end"], "normal": line["normal"]})
+                for component, values in line["fields"].items():
+                    lg[component] = values
+            for name, values in result["meep_flux"].items():
+                g[f"meep_flux/{name}"] = values
+            if "field_map" in result:
+                picture = result["field_map"]
+                g.create_dataset("field_map", data=picture["magnitude"], compression="gzip")
+                g["field_map"].attrs.update({k: picture[k] for k in ("component", "wavelength", "extent")})
+        f.create_group("summary").attrs["json"] = json.dumps(summary)
 
 
 def read_results(path):

@@ -77,7 +77,6 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import optimize
 
-ORIENTATIONS = ("parallel", "normal", "out-of-plane")
 BACKS = ("open", "mirror", "metal", "substrate")
 
 _PARTS = {

@@ -39,7 +39,6 @@ Extraction efficiency = top / emitted.
 import numpy as np
 from scipy import integrate
 
-ORIENTATIONS = ("parallel", "normal", "out-of-plane")
 
 
 def critical_angle(n_chip, n_ambient):

@@ -38,7 +38,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from fdtd_cases import geometry
+
 from . import multilayer
+from .reference import stack_at
 
 TABLE_POINTS = 20001
 """Angles in the tabulated interface coefficients (0 to 90 degrees)."""
@@ -127,9 +130,6 @@ def _back_lookup(kind, n_chip, back_index, wavelength):
 
 def scene_from_case(case, layout, wavelength, lateral="absorbing"):
     """The ray scene of a case at one wavelength, on the FDTD layout's domain."""
-    from fdtd_cases import geometry
-    from .reference import stack_at
-
     stack = stack_at(case, wavelength)
     n_chip = case.chip.index
     films = stack.films

@@ -15,10 +15,9 @@ and escaped powers (fractions of the bulk power) add directly.
 
 import numpy as np
 
-from . import closed_forms, multilayer
-from postprocess.farfield import ANGLES as FARFIELD_ANGLES
+from fdtd_cases.case import CATEGORIES
 
-CATEGORIES = ("top", "bottom", "sides", "absorbed")
+from . import closed_forms, multilayer
 
 
 def stack_at(case, wavelength):
@@ -36,7 +35,7 @@ def stack_at(case, wavelength):
         thickness=chip.thickness, back=chip.back, back_index=back_index)
 
 
-def planar(case, dim=2, modes=False, farfield=False):
+def planar(case, dim=2, modes=False, angles=None):
     """Exact flat-stack budget of the case's emitter, combined over orientations and wavelengths.
 
     Parameters
@@ -46,8 +45,9 @@ def planar(case, dim=2, modes=False, farfield=False):
     modes : bool
         Compute the guided power from the guided modes (independent check,
         ``balance_error``), see :func:`references.multilayer.emitter`.
-    farfield : bool
-        Add ``farfield``: escaped power per degree of ambient angle.
+    angles : array, optional
+        Ambient angles (degrees from the normal, -90 to 90): add ``farfield``,
+        the escaped power per degree at those angles.
 
     Returns
     -------
@@ -61,15 +61,16 @@ def planar(case, dim=2, modes=False, farfield=False):
     """
     wavelengths = case.light.wavelengths()
     orientations = case.emitter.orientations()
-    angles = np.abs(FARFIELD_ANGLES) if farfield else None
+    farfield = angles is not None
+    angles = np.asarray(angles, dtype=float) if farfield else None
     emitted = np.zeros((len(orientations), len(wavelengths)))
     parts = {c: np.zeros_like(emitted) for c in CATEGORIES}
-    intensity = np.zeros(len(FARFIELD_ANGLES))
+    intensity = np.zeros(len(angles)) if farfield else None
     balance, guided = [], {}
     for i, orientation in enumerate(orientations):
         for j, lam in enumerate(wavelengths):
             r = multilayer.emitter(stack_at(case, lam), case.emitter.depth, lam, orientation, dim=dim,
-                                   angles=angles, modes=modes)
+                                   angles=np.abs(angles) if farfield else None, modes=modes)
             emitted[i, j] = r["emission"]
             for c in CATEGORIES:
                 parts[c][i, j] = r["budget"][c] * r["emission"]
@@ -92,7 +93,7 @@ def planar(case, dim=2, modes=False, farfield=False):
         "guided_modes": guided or None,
     }
     if farfield:
-        result["farfield"] = {"angle": FARFIELD_ANGLES.tolist(), "intensity": (intensity / total).tolist()}
+        result["farfield"] = {"angle": angles.tolist(), "intensity": (intensity / total).tolist()}
     return result
 
 
@@ -143,10 +144,10 @@ def escape_cones(case):
     return out
 
 
-def case_reference(case, modes=True):
-    """Everything ``outcouple reference`` reports, JSON-ready."""
+def case_reference(case, modes=True, angles=None):
+    """Everything ``outcouple reference`` reports, JSON-ready (``angles``: see :func:`planar`)."""
     flat = case.surface.pattern == "flat"
-    result = planar(case, dim=2, modes=modes, farfield=True)
+    result = planar(case, dim=2, modes=modes, angles=angles)
     result["point_dipole"] = planar(case, dim=3, modes=modes)
     result["kind"] = "exact planar" if flat else "flat-surface baseline of the same stack (a bound, not a prediction)"
     result["method"] = ("exact plane-wave (angular-spectrum) expansion of the emitter's field in the flat stack, "

@@ -42,9 +42,16 @@ def run_cli(*args, cwd=None):
                           text=True, cwd=cwd, env=env, timeout=600)
 
 
+def run_case(data, workers=2):
+    """Run every job of a case dict through the public API (as ``outcouple run`` does); its summary."""
+    import outcouple
+
+    return outcouple.run(data, workers=workers, progress=False).to_dict()
+
+
 def run_in_process(data, orientation, x=0.0, symmetric=True):
     """Validate a case dict, run one job in this process and return (case, layout, raw result, fluxes)."""
-    from fdtd_cases.case import parse_case
+    from fdtd_cases.case_file import parse_case
     from fdtd_cases.layout import make_layout
     from fdtd_cases.meep_job import run_job
     from postprocess.budget import job_fluxes

@@ -6,6 +6,7 @@ import math
 import pytest
 
 from conftest import CONFIGS, run_cli
+from fdtd_cases.case import ORIENTATIONS
 from references import closed_forms
 from references import multilayer as ml
 
@@ -44,7 +45,7 @@ def test_flat_case_json(tmp_path):
         assert block["balance_error"] < 1e-6
     stack = ml.Stack(1.0, ((1.8 + 0j, 0.114),), 3.1 + 0j, 0.9, "mirror")
     for dim, block in ((2, data), (3, data["point_dipole"])):
-        runs = {o: ml.emitter(stack, 0.33, 0.82, o, dim=dim) for o in ml.ORIENTATIONS}
+        runs = {o: ml.emitter(stack, 0.33, 0.82, o, dim=dim) for o in ORIENTATIONS}
         for o, r in runs.items():
             assert block["by_orientation"][o] == pytest.approx(r["efficiency"], rel=1e-9)
         combined = sum(r["efficiency"] * r["emission"] for r in runs.values()) / sum(r["emission"] for r in runs.values())

@@ -56,4 +56,4 @@ def test_run_json_hdf5_and_show(tmp_path):
     assert again["efficiency"] == pytest.approx(summary["efficiency"], rel=1e-12)
     text = run_cli("show", out)
     assert "exact" in text.stdout and "power budget" in text.stdout
-    assert not list(tmp_path.glob("*.partial"))
+    assert not list(tmp_path.glob("*partial*"))

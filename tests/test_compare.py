@@ -16,7 +16,7 @@ def test_compare_writes_table_csv_and_plot(tmp_path):
     """Two depths of a flat chip: both methods per value, the CSV's columns named after the key,
     and the FDTD value equal to the exact planar one within 3% (the FDTD column is what `run`
     would print; the exact solver is checked in test_multilayer.py)."""
-    from fdtd_cases.case import parse_case
+    from fdtd_cases.case_file import parse_case
     from references.reference import planar
 
     case = tmp_path / "flat.toml"

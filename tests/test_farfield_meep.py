@@ -109,7 +109,7 @@ def run_with_near2far(data, orientation):
     """
     import meep as mp
 
-    from fdtd_cases.case import parse_case
+    from fdtd_cases.case_file import parse_case
     from fdtd_cases.layout import make_layout
     from fdtd_cases.meep_job import (_MEEP_COMPONENT, COMPONENTS, MAX_RUN_CROSSINGS, _region,
                                      build_simulation, monitor_lines)

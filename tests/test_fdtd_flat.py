@@ -13,7 +13,7 @@ from references import planar
 from postprocess.budget import bulk_power
 
 pytestmark = [requires_meep, pytest.mark.fdtd]
-ORIENTATIONS = ("parallel", "normal", "out-of-plane")
+from fdtd_cases.case import ORIENTATIONS
 
 
 def flat_case(n_chip, depth=0.35, ppw=24, **extra):
@@ -81,7 +81,7 @@ def test_mirror_symmetry_gives_the_same_answer():
 def test_sloped_patterns_do_not_use_symmetry():
     """With Meep 1.25 a parallel emitter under a triangle apex went to NaN with the mirror on;
     the runner therefore uses symmetry only for flat and grating surfaces (README)."""
-    from fdtd_cases.case import parse_case
+    from fdtd_cases.case_file import parse_case
     from fdtd_cases.layout import make_layout
     for pattern in ("triangle", "sine"):
         data = flat_case(2.5, ppw=16, surface__pattern=pattern, surface__period=0.8, surface__height=0.2)

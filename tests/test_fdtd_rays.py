@@ -8,12 +8,11 @@ bands); the numbers measured there are in the README.
 
 import pytest
 
-from conftest import requires_meep
-from fdtd_cases.case import parse_case
+from conftest import requires_meep, run_case
+from fdtd_cases.case_file import parse_case
 from fdtd_cases.layout import make_layout
 from references import raytrace
 from references.reference import planar
-from test_fdtd_stacks import run_case
 
 pytestmark = [requires_meep, pytest.mark.fdtd]
 

@@ -2,28 +2,16 @@
 
 The exact solver (references.multilayer) is itself checked against tmm, image theory, the
 textbook dipole integrals and energy conservation in test_multilayer.py. Jobs run through the
-package's runner and analysis, as ``outcouple run`` runs them, two worker processes at a time.
+package's public API, as ``outcouple run`` runs them, two worker processes at a time.
 """
 
 import pytest
 
-from conftest import requires_meep
-from fdtd_cases.case import parse_case
+from conftest import requires_meep, run_case
+from fdtd_cases.case_file import parse_case
 from references.reference import planar
 
 pytestmark = [requires_meep, pytest.mark.fdtd]
-
-
-def run_case(data):
-    from fdtd_cases.layout import make_layout
-    from fdtd_cases.runner import plan_jobs, run_jobs
-    from postprocess.analysis import analyse
-
-    case = parse_case(data)
-    layout = make_layout(case)
-    jobs = plan_jobs(case, layout)
-    raw = run_jobs(case, layout, jobs, workers=2, progress=False)
-    return analyse(case, [{**j, **r} for j, r in zip(jobs, raw)], layout.wavelengths, layout.resolution)
 
 
 def test_anti_reflection_film():

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from fdtd_cases import geometry
-from fdtd_cases.case import parse_case
+from fdtd_cases.case_file import parse_case
 
 
 def _surface(**table):

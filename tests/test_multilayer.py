@@ -10,7 +10,7 @@ from scipy import integrate, special
 from references import multilayer as ml
 from references import planar
 
-ORIENTATIONS = ml.ORIENTATIONS
+from fdtd_cases.case import ORIENTATIONS
 AR_FILMS = ((1.73 + 0j, 0.1445),)
 ABSORBING_FILMS = ((2.1 + 0.05j, 0.23), (1.45 + 0j, 0.31))
 

@@ -6,7 +6,7 @@ import tmm
 
 from references import closed_forms, planar
 
-ORIENTATIONS = planar.ORIENTATIONS
+from fdtd_cases.case import ORIENTATIONS
 
 
 @pytest.mark.parametrize("n_chip", [2.5, 3.5])

@@ -10,7 +10,7 @@ import matplotlib.figure
 import numpy as np
 import pytest
 
-from fdtd_cases.case import parse_case
+from fdtd_cases.case_file import parse_case
 from fdtd_cases.layout import make_layout
 from postprocess import farfield, plots
 

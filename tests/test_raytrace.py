@@ -7,11 +7,11 @@ import numpy as np
 import pytest
 
 from conftest import run_cli
-from fdtd_cases.case import parse_case
+from fdtd_cases.case_file import parse_case
 from fdtd_cases.layout import make_layout
 from references import closed_forms, multilayer, raytrace
 
-ORIENTATIONS = ("parallel", "normal", "out-of-plane")
+from fdtd_cases.case import ORIENTATIONS
 
 
 def case_of(**tables):

@@ -12,15 +12,21 @@ only when everything has run.
 import copy
 import csv
 import math
-import os
+import sys
+import tomllib
 from pathlib import Path
 
 import numpy as np
 
-from fdtd_cases.case import parse_case
+from fdtd_cases.case_file import load_case, parse_case
 from fdtd_cases.errors import CaseError
 from fdtd_cases.layout import make_layout
-from fdtd_cases.runner import run_cases
+from fdtd_cases.runner import plan_jobs, run_cases
+from postprocess.files import atomic_write
+from postprocess.plots import plot_comparison
+from references import raytrace
+
+from .summary import summarise
 
 
 def parse_vary(text):
@@ -70,13 +76,10 @@ def prepare(data, source, key, values):
 
 def run(points, key, tolerance, rays, workers, progress):
     """FDTD and rays for every point; rows of the comparison table."""
-    from postprocess.analysis import analyse
-    from references import raytrace
-
     runs = run_cases([(case, layout) for _, case, layout in points], workers, progress)
     rows = []
     for (value, case, layout), merged in zip(points, runs):
-        wave = analyse(case, merged, layout.wavelengths, layout.resolution)
+        wave = summarise(case, merged, layout.wavelengths, layout.resolution)
         ray = raytrace.run_case(case, layout, rays=rays)
         difference = ray["efficiency"] / wave["efficiency"] - 1 if wave["efficiency"] > 0 else math.inf
         rows.append({
@@ -90,23 +93,38 @@ def run(points, key, tolerance, rays, workers, progress):
 
 
 def write_outputs(rows, key, out_dir, title):
-    """compare.csv and compare.png in ``out_dir`` (each written under a temporary name first)."""
-    from postprocess.plots import plot_comparison
-
+    """compare.csv and compare.png in ``out_dir`` (published together when both are written)."""
     out_dir = Path(out_dir)
     out_dir.mkdir(parents=True, exist_ok=True)
     scale = rows[0]["chip_wavelength"]
     columns = [key, f"{key}_over_chip_wavelength", "fdtd", "rays", "rays_error", "difference", "differs"]
-    partial = out_dir / "compare.csv.partial"
-    with open(partial, "w", newline="") as f:
-        writer = csv.writer(f)
-        writer.writerow(columns)
-        for r in rows:
-            writer.writerow([f"{r[key]:.6g}", f"{r[key] / scale:.6g}", f"{r['fdtd']:.6f}", f"{r['rays']:.6f}",
-                             f"{r['rays_error']:.6f}", f"{r['difference']:+.5f}", int(r["differs"])])
-    picture = out_dir / "compare.partial.png"
-    plot_comparison(key, [r[key] for r in rows], scale, [r["fdtd"] for r in rows], [r["rays"] for r in rows],
-                    [r["rays_error"] for r in rows], [r["differs"] for r in rows], picture, title)
-    os.replace(partial, out_dir / "compare.csv")
-    os.replace(picture, out_dir / "compare.png")
-    return out_dir / "compare.csv", out_dir / "compare.png"
+    csv_path, png_path = out_dir / "compare.csv", out_dir / "compare.png"
+    with atomic_write(csv_path) as partial, atomic_write(png_path) as picture:
+        with open(partial, "w", newline="") as f:
+            writer = csv.writer(f)
+            writer.writerow(columns)
+            for r in rows:
+                writer.writerow([f"{r[key]:.6g}", f"{r[key] / scale:.6g}", f"{r['fdtd']:.6f}", f"{r['rays']:.6f}",
+                                 f"{r['rays_error']:.6f}", f"{r['difference']:+.5f}", int(r["differs"])])
+        plot_comparison(key, [r[key] for r in rows], scale, [r["fdtd"] for r in rows], [r["rays"] for r in rows],
+                        [r["rays_error"] for r in rows], [r["differs"] for r in rows], picture, title)
+    return csv_path, png_path
+
+
+def compare(case_file, vary, tolerance=0.05, rays=20000, output=None, workers=None, progress=True):
+    """``outcouple compare``: FDTD and rays over ``vary`` = "KEY=START:STOP:COUNT"; the table as a dict.
+
+    Every value is validated before anything runs; ``compare.csv`` and
+    ``compare.png`` go to ``output`` (default: the case's name with _compare).
+    """
+    key, values = parse_vary(vary)
+    _, text = load_case(case_file)
+    points = prepare(tomllib.loads(text), case_file, key, values)
+    out_dir = Path(output) if output else Path(Path(case_file).stem + "_compare")
+    if progress:
+        jobs = sum(len(plan_jobs(c, lay)) for _, c, lay in points)
+        print(f"comparing {len(points)} values of {key}: {jobs} FDTD job(s), then rays", file=sys.stderr)
+    rows = run(points, key, tolerance, rays, workers, progress)
+    csv_path, png_path = write_outputs(rows, key, out_dir, f"{Path(case_file).name}: {key}")
+    return {"case": str(case_file), "key": key, "tolerance": tolerance, "rows": rows, "csv": str(csv_path),
+            "plot": str(png_path)}

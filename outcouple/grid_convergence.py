@@ -11,6 +11,9 @@ chooses the levels.
 from fdtd_cases.errors import CaseError
 from fdtd_cases.layout import MIN_PPW_ERROR, make_layout
 from fdtd_cases.runner import run_cases
+from postprocess.convergence import extrapolate
+
+from .summary import summarise
 
 DEFAULT_FACTORS = (0.8, 1.0, 1.25)
 FINER_FACTORS = (1.0, 1.25, 1.5625)
@@ -40,15 +43,12 @@ def levels(case, source, resolutions=None):
 
 
 def run(case, source, resolutions=None, tolerance=0.02, workers=None, progress=True):
-    """Efficiency at each level, the extrapolated value and the verdict, JSON-ready."""
-    from postprocess.analysis import analyse
-    from postprocess.convergence import extrapolate
-
+    """Efficiency at each level, the extrapolated value and the verdict, JSON-ready (``outcouple converge``)."""
     own, points = levels(case, source, resolutions)
     runs = run_cases([(c, lay) for _, c, lay in points], workers, progress)
     rows = []
     for (resolution, c, lay), merged in zip(points, runs):
-        summary = analyse(c, merged, lay.wavelengths, lay.resolution)
+        summary = summarise(c, merged, lay.wavelengths, lay.resolution)
         rows.append({"resolution": resolution, "points_per_wavelength": lay.points_per_wavelength["chip"],
                      "efficiency": summary["efficiency"], "by_orientation": summary["by_orientation"],
                      "exact": summary.get("reference", {}).get("efficiency"),
@@ -65,3 +65,11 @@ def run(case, source, resolutions=None, tolerance=0.02, workers=None, progress=T
         "judged_is_case_resolution": abs(judged["resolution"] - own) < 1e-9,
         "relative_error": relative, "tolerance": tolerance, "converged": bool(relative <= tolerance),
     }
+
+
+def converge(case, resolutions=None, tolerance=0.02, workers=None, progress=True):
+    """``outcouple converge``: a case (path, dict or Case) at two or three resolutions; see :func:`run`."""
+    from .api import load_case
+
+    case = load_case(case)
+    return run(case, case._origin[0], resolutions, tolerance, workers, progress)

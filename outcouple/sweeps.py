@@ -12,18 +12,30 @@ running the sweep again only runs what is missing or failed.
 import hashlib
 import itertools
 import json
-import os
+import shutil
+import subprocess
+import sys
+import time
+import tomllib
 import traceback
 from pathlib import Path
 
 import numpy as np
 import tomli_w
 
-from fdtd_cases.case import parse_case, resolved_dict
-from .compare import with_value
+from fdtd_cases.case import Collection
+from fdtd_cases.case_file import parse_case, resolved_dict
 from fdtd_cases.errors import CaseError
 from fdtd_cases.layout import make_layout
-from fdtd_cases.runner import plan_jobs
+from fdtd_cases.runner import plan_jobs, run_many
+from postprocess.files import atomic_write
+from postprocess.results import FORMAT_VERSION, read_results, write_results
+from postprocess.sweep_file import read_sweep, write_sweep
+
+from . import slurm
+from .comparison import with_value
+from .summary import flat_baseline, summarise
+from .version import __version__
 
 MODES = ("grid", "zip")
 PLAN = "plan.json"
@@ -81,8 +93,6 @@ def _label(values):
 
 def job_id(resolved_toml, orientation, x):
     """Hash of a job's inputs and the result-format version."""
-    from postprocess.results import FORMAT_VERSION
-
     text = f"format {FORMAT_VERSION}\n{resolved_toml}\norientation {orientation}\nx {x!r}\n"
     return hashlib.sha256(text.encode()).hexdigest()[:20]
 
@@ -113,9 +123,8 @@ def plan(data, source):
 def write_plan(out_dir, the_plan):
     out_dir = Path(out_dir)
     (out_dir / "jobs").mkdir(parents=True, exist_ok=True)
-    partial = out_dir / (PLAN + ".partial")
-    partial.write_text(json.dumps(the_plan, indent=1))
-    os.replace(partial, out_dir / PLAN)
+    with atomic_write(out_dir / PLAN) as partial:
+        partial.write_text(json.dumps(the_plan, indent=1))
 
 
 def read_plan(out_dir):
@@ -141,7 +150,7 @@ def job_state(out_dir, job, queued=None):
     if failed.is_file():
         lines = [line for line in failed.read_text().splitlines() if line.strip()]
         return "failed", lines[-1] if lines else "failed"
-    reason = slurm_log_reason(out_dir, job["id"])
+    reason = slurm.slurm_log_reason(out_dir, job["id"])
     if reason:
         return "failed", reason
     return "missing", ""
@@ -150,7 +159,7 @@ def job_state(out_dir, job, queued=None):
 def status(out_dir):
     """Counts and the failed jobs with their reasons."""
     the_plan = read_plan(out_dir)
-    queued = _queued_ids(out_dir) if _batches(out_dir) else {}
+    queued = slurm.queued_ids(out_dir) if slurm.batches(out_dir) else {}
     counts = {"done": 0, "running": 0, "failed": 0, "missing": 0}
     failed = []
     for point in the_plan["points"]:
@@ -164,11 +173,7 @@ def status(out_dir):
 
 def write_job(out_dir, case, layout, job, raw, point):
     """One job's complete result file, atomically (a job file is complete or absent)."""
-    from postprocess.analysis import analyse
-    from postprocess.results import write_results
-    from . import __version__
-
-    summary = analyse(case, [{**job, **raw}], layout.wavelengths, layout.resolution)
+    summary = summarise(case, [{**job, **raw}], layout.wavelengths, layout.resolution)
     path = Path(out_dir) / "jobs" / f"{job['id']}.h5"
     write_results(path, case_file=f"sweep point: {_label(point['values'])}", case_text=point["case_toml"],
                   resolved_toml=point["case_toml"], layout=layout, jobs=[job], raw=[raw], summary=summary,
@@ -180,9 +185,6 @@ def write_job(out_dir, case, layout, job, raw, point):
 
 def run_local(out_dir, workers=None, progress=True):
     """Run every job that is missing or failed, in local worker processes; returns how many ran."""
-    import tomllib
-    from fdtd_cases.runner import run_many
-
     the_plan = read_plan(out_dir)
     todo = []
     for point in the_plan["points"]:
@@ -207,63 +209,25 @@ def run_local(out_dir, workers=None, progress=True):
     return len(todo)
 
 
-# --- SLURM engine -------------------------------------------------------------------------------
-# One submission is a job array over the jobs that were missing or failed when it was made; its
-# list lives in slurm/batch-N.json, and array task i runs entry i (python -m outcouple.sweep_task).
-
-SLURM = "slurm"
-
-
-def _slurm_dir(out_dir):
-    return Path(out_dir) / SLURM
-
-
-def _batches(out_dir):
-    folder = _slurm_dir(out_dir)
-    return sorted(folder.glob("batch-*.json")) if folder.is_dir() else []
-
-
-def batch_script(out_dir, batch_file, count, cluster, python):
-    """The sbatch script of one submission (array tasks 0 .. count-1; each runs ``jobs_per_task`` jobs)."""
-    out_dir = Path(out_dir).resolve()
-    lines = ["#!/bin/bash", "#SBATCH --job-name=outcouple-sweep", f"#SBATCH --array=0-{count - 1}",
-             f"#SBATCH --output={out_dir / SLURM}/%A_%a.log"]
-    for option, value in (("partition", cluster.get("partition")), ("time", cluster.get("time")),
-                          ("mem", cluster.get("mem")), ("cpus-per-task", cluster.get("cpus"))):
-        if value is not None:
-            lines.append(f"#SBATCH --{option}={value}")
-    ranks = int(cluster.get("mpi_ranks") or 1)
-    if ranks > 1 and cluster.get("cpus") is None:
-        lines.append(f"#SBATCH --cpus-per-task={ranks}")
-    lines += [f"#SBATCH {line}" for line in cluster.get("extra", [])]
-    launch = cluster.get("mpi_launch", "mpirun -np {ranks}").format(ranks=ranks) + " " if ranks > 1 else ""
-    lines.append(f'exec {launch}"{python}" -m outcouple.sweep_task "{out_dir}" "{Path(batch_file).resolve()}" '
-                 '"$SLURM_ARRAY_TASK_ID"')
-    return "\n".join(lines) + "\n"
-
-
 def submit_slurm(out_dir, cluster, python):
     """Submit the jobs that are missing or failed (and not queued) as one array; returns (job id, count)."""
-    import shutil
-    import subprocess
-
     if shutil.which("sbatch") is None:
         raise CaseError("command line", "--engine", "slurm: sbatch is not on the PATH (is SLURM installed, and is "
                         "this a login node?)")
     the_plan = read_plan(out_dir)
-    queued = _queued_ids(out_dir)
+    queued = slurm.queued_ids(out_dir)
     todo = [job["id"] for point in the_plan["points"] for job in point["jobs"]
             if job_state(out_dir, job)[0] != "done" and job["id"] not in queued]
     if not todo:
         return None, 0
-    folder = _slurm_dir(out_dir)
+    folder = slurm.slurm_dir(out_dir)
     folder.mkdir(parents=True, exist_ok=True)
-    number = len(_batches(out_dir))
+    number = len(slurm.batches(out_dir))
     batch = folder / f"batch-{number:03d}.json"
     script = folder / f"batch-{number:03d}.sh"
     per_task = int(cluster.get("jobs_per_task") or 1)
     tasks = -(-len(todo) // per_task)
-    script.write_text(batch_script(out_dir, batch, tasks, cluster, python))
+    script.write_text(slurm.batch_script(out_dir, batch, tasks, cluster, python))
     batch.write_text(json.dumps({"jobs": todo, "per_task": per_task}))
     done = subprocess.run(["sbatch", "--parsable", str(script)], capture_output=True, text=True, timeout=60)
     if done.returncode != 0:
@@ -274,84 +238,88 @@ def submit_slurm(out_dir, cluster, python):
     return job, tasks
 
 
-def _queue():
-    """{(slurm job id, array task) or (job id, None): state} from squeue; {} without SLURM."""
-    import shutil
-    import subprocess
+def point_summaries(out_dir, the_plan):
+    """The summary of every point, from its job files (the same as ``show`` of a run of that point).
 
-    if shutil.which("squeue") is None:
-        return {}
-    done = subprocess.run(["squeue", "-h", "-r", "-o", "%i %T"], capture_output=True, text=True, timeout=30)
-    states = {}
-    for line in done.stdout.splitlines():
-        ident, _, state = line.partition(" ")
-        job, _, task = ident.partition("_")
-        states[(job, task)] = state
-    return states
-
-
-def _queued_ids(out_dir):
-    """Sweep job ids whose array task is pending or running."""
-    queue = _queue()
-    ids = {}
-    for batch in _batches(out_dir):
-        info = json.loads(batch.read_text())
-        per_task = info.get("per_task", 1)
-        for i, job_id_ in enumerate(info["jobs"]):
-            state = queue.get((info.get("slurm_job"), str(i // per_task)))
-            if state in ("PENDING", "RUNNING", "CONFIGURING", "COMPLETING"):
-                ids[job_id_] = state
-    return ids
-
-
-def slurm_log_reason(out_dir, job_id_):
-    """The last line of the newest SLURM log of a job (why a task died without a .failed file)."""
-    reason = ""
-    for batch in _batches(out_dir):
-        info = json.loads(batch.read_text())
-        if job_id_ in info["jobs"] and info.get("slurm_job"):
-            task = info["jobs"].index(job_id_) // info.get("per_task", 1)
-            log = _slurm_dir(out_dir) / f"{info['slurm_job']}_{task}.log"
-            if log.is_file():
-                lines = [line for line in log.read_text(errors="replace").splitlines() if line.strip()]
-                reason = lines[-1] if lines else "no output"
-    return reason
-
-
-def run_task(out_dir, batch_file, index):
-    """One array task: run its share of ``batch_file``'s jobs, writing each job's file.
-
-    A job that fails leaves its .failed file and the task goes on with the
-    next; the task exits non-zero if any failed.
+    Each carries ``flat_baseline``, the exact efficiency of the point's stack with a flat surface.
     """
-    import tomllib
-    from fdtd_cases.meep_job import is_master, run_job
+    jobs_dir = Path(out_dir) / "jobs"
+    missing = [job["id"] for point in the_plan["points"] for job in point["jobs"]
+               if not (jobs_dir / f"{job['id']}.h5").is_file()]
+    if missing:
+        raise CaseError(out_dir, "", f"{len(missing)} job(s) not done (for example {missing[0]}); "
+                        "run 'outcouple sweep' again to finish them, 'outcouple status' to see why")
+    summaries = []
+    for point in the_plan["points"]:
+        case = parse_case(tomllib.loads(point["case_toml"]), source=f"{out_dir}/{PLAN}")
+        if the_plan.get("collection"):
+            case = case.model_copy(update={"collection": Collection(**the_plan["collection"])})
+        jobs, grid = [], None
+        for job in point["jobs"]:
+            data = read_results(jobs_dir / f"{job['id']}.h5")
+            grid = data["grid"]
+            jobs += data["jobs"]
+        summary = summarise(case, jobs, grid["wavelengths"], grid["resolution"])
+        summary["flat_baseline"] = flat_baseline(case)
+        summaries.append(summary)
+    return summaries
 
-    # Under MPI every rank runs the simulation; only the master writes files (Meep's rule).
-    master = is_master()
-    info = json.loads(Path(batch_file).read_text())
-    per_task = info.get("per_task", 1)
-    mine = info["jobs"][index * per_task:(index + 1) * per_task]
-    where = {job["id"]: (point, job) for point in read_plan(out_dir)["points"] for job in point["jobs"]}
-    failures = 0
-    for job_id_ in mine:
-        if job_id_ not in where:
-            raise SystemExit(f"sweep_task: job {job_id_} is not in {out_dir}/{PLAN}")
-        point, job = where[job_id_]
-        if master:
-            with open(_slurm_dir(out_dir) / "runs.log", "a") as log:
-                log.write(f"{job_id_} started\n")
-        try:
-            case = parse_case(tomllib.loads(point["case_toml"]), source=f"{out_dir}/{PLAN}")
-            layout = make_layout(case)
-            raw = run_job(case, layout, job["orientation"], job["x"], job["symmetric"])
-            if master:
-                write_job(out_dir, case, layout, job, raw, point)
-        except Exception as error:
-            text = "".join(traceback.format_exception(error))
-            if master:
-                (Path(out_dir) / "jobs" / f"{job_id_}.failed").write_text(text)
-            print(text, flush=True)
-            failures += 1
-    if failures:
-        raise SystemExit(f"sweep_task: {failures} of {len(mine)} job(s) failed")
+
+def collect(out_dir, the_plan=None):
+    """Analyse every point and write ``sweep.h5`` and ``sweep.csv`` (refused while jobs are missing).
+
+    Returns the point summaries and the collected data set (:func:`postprocess.sweep_file.read_sweep`).
+    """
+    the_plan = the_plan or read_plan(out_dir)
+    summaries = point_summaries(out_dir, the_plan)
+    h5_path, _ = write_sweep(out_dir, the_plan, summaries, __version__)
+    return summaries, read_sweep(h5_path)
+
+
+def start(case_file, out, engine="local", workers=None, progress=True, cluster=None):
+    """Validate a case's ``[sweep]``, write its plan into ``out`` and run or submit what is not done.
+
+    Returns a dict: ``points``, ``jobs``, ``done_before`` and, for the local
+    engine, ``ran``, ``done``, ``failed`` (list of (values, job, reason));
+    for SLURM, ``slurm_job`` (None when nothing needed submitting), ``tasks``
+    and ``jobs_per_task``. ``cluster`` overrides the case's ``[cluster]`` keys.
+    """
+    from fdtd_cases.case_file import load_case
+
+    case, text = load_case(case_file)
+    the_plan = plan(tomllib.loads(text), case_file)
+    out = Path(out)
+    if (out / PLAN).is_file() and read_plan(out)["points"] != the_plan["points"]:
+        raise CaseError("command line", "--out", f"{out} holds a different sweep; use a new folder "
+                        "(job results are kept by id, so nothing valid would be lost, but the folder's "
+                        "plan would no longer describe them)")
+    write_plan(out, the_plan)
+    total = sum(len(p["jobs"]) for p in the_plan["points"])
+    before = status(out)[1]["done"]
+    info = {"points": len(the_plan["points"]), "jobs": total, "done_before": before}
+    if engine == "slurm":
+        settings = case.cluster.model_dump()
+        settings.update({k: v for k, v in (cluster or {}).items() if v is not None and k != "extra"})
+        settings["extra"] = settings["extra"] + list((cluster or {}).get("extra") or [])
+        job, tasks = submit_slurm(out, settings, sys.executable)
+        return {**info, "slurm_job": job, "tasks": tasks, "jobs_per_task": settings["jobs_per_task"]}
+    if progress:
+        print(f"sweep of {info['points']} point(s), {total} job(s): {before} already done, "
+              f"running {total - before}", file=sys.stderr)
+    ran = run_local(out, workers=workers, progress=progress)
+    _, counts, failed = status(out)
+    return {**info, "ran": ran, "done": counts["done"], "failed": failed}
+
+
+def wait(out, seconds):
+    """Wait up to ``seconds`` while SLURM tasks of the sweep are queued or running; the final counts."""
+    deadline = time.monotonic() + seconds
+    while status(out)[1]["running"] and time.monotonic() < deadline:
+        time.sleep(2)
+    return status(out)[1]
+
+
+def report_status(out):
+    """``outcouple status``: counts of done, running, failed and missing jobs, and the failed ones."""
+    _, counts, failed = status(out)
+    return {**counts, "jobs": sum(counts.values()), "failed_jobs": failed}

@@ -1,0 +1,45 @@
+"""The summary of a run: the one place where the reported numbers are assembled.
+
+``run``, ``show``, sweep ``collect``, ``compare``, ``converge`` and ``report``
+all call :func:`summarise`, so every command prints the same numbers for the
+same saved fields: the FDTD numbers (:func:`postprocess.analysis.analyse`),
+for flat cases the exact planar reference beside them, and the power inside
+the case's collection cone.
+"""
+
+from postprocess import analysis, farfield
+from references import reference
+
+
+def exact_reference(case):
+    """Exact planar result of the case's line emitter, combined like the FDTD jobs (flat cases)."""
+    result = reference.planar(case, dim=2, angles=farfield.ANGLES)
+    result["method"] = "exact plane-wave (angular-spectrum) expansion in the flat stack"
+    return result
+
+
+def summarise(case, jobs, wavelengths, resolution):
+    """The summary printed by ``run --json`` for ``jobs`` (each with its saved line fields).
+
+    Parameters
+    ----------
+    case : fdtd_cases.case.Case
+    jobs : list of dict
+        Each with ``orientation``, ``x``, ``lines`` and ``source_current``.
+    wavelengths : array
+        Sampled vacuum wavelengths, µm.
+    resolution : float
+        Grid points per µm of the run.
+    """
+    summary = analysis.analyse(case, jobs, wavelengths, resolution)
+    if case.surface.pattern == "flat":  # the exact planar solver covers every flat case
+        summary["reference"] = exact_reference(case)
+    if case.collection is not None:
+        summary.update(analysis.collection_summary(case, summary))
+    return summary
+
+
+def flat_baseline(case):
+    """Exact planar efficiency of the case's stack with a flat surface (what a pattern must beat)."""
+    flat = case.model_copy(update={"surface": type(case).model_fields["surface"].default})
+    return reference.planar(flat)["efficiency"]
