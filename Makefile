@@ -36,18 +36,25 @@ setup: os-packages $(VENV)/.installed
 demo: setup
 	@$(PY) configs/demo.py
 
+# The services some tests need. On a user's machine a service that cannot be set up only makes
+# its tests skip (they say why); under CI=true it fails the run, so CI cannot go green without them.
+define service
+	@bash scripts/$(1) || { if [ "$$CI" = true ]; then echo "error: $(2) (CI=true: a service the tests need)"; exit 1; \
+	  else echo "warning: $(2); those tests will skip"; fi; }
+endef
+
 # A one-node SLURM cluster on localhost (munge, slurmctld, slurmd) for the sweep tests; installed
-# from the OS packages when missing. If it cannot start, those tests skip and say why.
+# from the OS packages when missing.
 slurm:
-	@bash scripts/slurm_local.sh || echo "warning: SLURM could not be started here; the SLURM sweep tests will skip"
+	$(call service,slurm_local.sh,SLURM could not be started here)
 
 # The MPI build of Meep beside the serial one (unpacked into /opt/meep-mpi) for the MPI sweep test.
 mpi-meep:
-	@bash scripts/meep_mpi_local.sh || echo "warning: MPI Meep could not be provided; the MPI sweep test will skip"
+	$(call service,meep_mpi_local.sh,MPI Meep could not be provided)
 
 # Headless Chromium from the OS packages, for the test that looks at the HTML report.
 browser:
-	@bash scripts/chromium_local.sh || echo "warning: Chromium could not be installed; the report rendering test will skip"
+	$(call service,chromium_local.sh,Chromium could not be installed)
 
 test: setup slurm mpi-meep browser
 	@$(PY) -m pytest -q -p no:cacheprovider

@@ -57,10 +57,8 @@ def main():
         c = s["collection"]
         print(f"{name}: into a lens of NA {LENS_NA} (+/-{c['half_angle']:.0f} deg): {s['collected']:.4f} of the emitted "
               f"power ({c['of_escaped']:.0%} of what escapes; a Lambertian die would put {c['lambertian']:.4f} there)")
-    bounds = json.loads(subprocess.run([sys.executable, "-m", "outcouple.cli", "reference", str(grating), "--json"],
-                                       stdout=subprocess.PIPE, text=True, check=True).stdout)
-    rays = json.loads(subprocess.run([sys.executable, "-m", "outcouple.cli", "rays", str(grating), "--json", "--quiet"],
-                                     stdout=subprocess.PIPE, text=True, check=True).stdout)
+    bounds = json.loads(outcouple("reference", grating, "--json"))
+    rays = json.loads(outcouple("rays", grating, "--json", "--quiet"))
     print(f"ray optics on the same grating die (outcouple rays): {rays['efficiency']:.4f} +/- "
           f"{rays['statistical_error']:.4f}, against {summaries['demo_grating']['efficiency']:.4f} full wave: "
           "at a period of two chip wavelengths, diffraction matters")

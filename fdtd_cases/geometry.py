@@ -2,7 +2,7 @@
 
 The geometry is generated once here and shared by every consumer (the Meep
 builder, previews, later the ray tracer), so all of them solve the same
-structure. Conventions (DESIGN.md): y points up into the ambient; y = 0 is the
+structure. Conventions (docs/conventions.md): y points up into the ambient; y = 0 is the
 top of the chip before patterning and the highest point of the surface;
 patterns are cut downward from there; periodic patterns are symmetric about
 x = 0 (a grating ridge, a triangle apex, a sine crest sit on x = 0).

@@ -21,12 +21,9 @@ import os
 import sys
 from pathlib import Path
 
-from fdtd_cases.errors import CaseError
+import outcouple
+from outcouple import CaseError, ResultFileError, __version__
 from postprocess import tables
-from postprocess.results import ResultFileError
-
-from . import api, comparison, grid_convergence, sweeps
-from .version import __version__
 
 EXIT_INPUT = 2
 
@@ -41,7 +38,7 @@ def _json(data):
 
 
 def cmd_check(args):
-    facts = api.check(args.case)
+    facts = outcouple.check(args.case)
     _warn(args.case, facts["warnings"])
     print(tables.format_check(facts))
     return 0
@@ -49,11 +46,12 @@ def cmd_check(args):
 
 def cmd_run(args):
     out = args.output or Path(args.case).stem + ".h5"
-    case = api.load_case(args.case)
-    _warn(args.case, api.layout_of(case).warnings)
+    case = outcouple.load_case(args.case)
+    facts = outcouple.check(case)
+    _warn(args.case, facts["warnings"])
     if not args.quiet:
-        print(f"running {api.check(case)['jobs']} job(s) of {args.case}", file=sys.stderr)
-    result = api.run(case, workers=args.workers, fields=args.fields, progress=not args.quiet, output=out, na=args.na)
+        print(f"running {facts['jobs']} job(s) of {args.case}", file=sys.stderr)
+    result = outcouple.run(case, workers=args.workers, fields=args.fields, progress=not args.quiet, output=out, na=args.na)
     if args.json:
         _json(result.to_dict())
     else:
@@ -63,7 +61,7 @@ def cmd_run(args):
 
 
 def cmd_show(args):
-    result = api.show(args.result, na=args.na)
+    result = outcouple.show(args.result, na=args.na)
     if args.json:
         _json(result.to_dict())
     else:
@@ -74,7 +72,7 @@ def cmd_show(args):
 
 
 def cmd_reference(args):
-    result = api.reference(args.case, na=args.na)
+    result = outcouple.reference(args.case, na=args.na)
     print(json.dumps(result, indent=2) if args.json else tables.format_reference(result))
     return 0
 
@@ -82,13 +80,13 @@ def cmd_reference(args):
 def cmd_rays(args):
     if not args.quiet:
         print(f"tracing {args.rays} rays per job of {args.case}", file=sys.stderr)
-    result = api.rays(args.case, rays=args.rays, seed=args.seed, lateral=args.lateral, na=args.na)
+    result = outcouple.rays(args.case, rays=args.rays, seed=args.seed, lateral=args.lateral, na=args.na)
     print(json.dumps(result, indent=2) if args.json else tables.format_rays(result))
     return 0
 
 
 def cmd_compare(args):
-    result = comparison.compare(args.case, args.vary, tolerance=args.tolerance, rays=args.rays, output=args.output,
+    result = outcouple.compare(args.case, args.vary, tolerance=args.tolerance, rays=args.rays, output=args.output,
                              workers=args.workers, progress=not args.quiet)
     if args.json:
         _json({k: v for k, v in result.items() if k != "case"})
@@ -100,8 +98,8 @@ def cmd_compare(args):
 def cmd_sweep(args):
     cluster = {key: getattr(args, key) for key in ("partition", "time", "mem", "cpus", "jobs_per_task")}
     cluster["extra"] = args.sbatch or []
-    info = sweeps.start(args.case, args.out, engine=args.engine, workers=args.workers, progress=not args.quiet,
-                       cluster=cluster)
+    info = outcouple.sweep(args.case, args.out, engine=args.engine, workers=args.workers, progress=not args.quiet,
+                           cluster=cluster, wait=args.wait)
     out, total = Path(args.out), info["jobs"]
     if args.engine == "slurm":
         if info["slurm_job"] is None:
@@ -111,7 +109,7 @@ def cmd_sweep(args):
                   f"({info['jobs_per_task']} job(s) per task; the sweep has {total} job(s))")
         if not args.wait:
             return 0
-        counts = sweeps.wait(out, args.wait)
+        counts = info["counts"]
         print(f"{out}: done {counts['done']}, running {counts['running']}, failed {counts['failed']}, "
               f"missing {counts['missing']}")
         return 0 if counts["done"] == total else 1
@@ -126,7 +124,7 @@ def _print_lines(lines):
 
 
 def cmd_status(args):
-    counts = sweeps.report_status(args.dir)
+    counts = outcouple.status(args.dir)
     print(f"{args.dir}: {counts['jobs']} job(s): done {counts['done']}, running {counts['running']}, "
           f"failed {counts['failed']}, missing {counts['missing']}")
     _print_lines(tables.failed_lines(counts["failed_jobs"]))
@@ -134,24 +132,24 @@ def cmd_status(args):
 
 
 def cmd_collect(args):
-    summaries, _ = sweeps.collect(args.dir)
+    summaries, _ = outcouple.collect(args.dir)
     print(f"{args.dir}: {len(summaries)} point(s) collected -> {Path(args.dir) / 'sweep.h5'}, "
           f"{Path(args.dir) / 'sweep.csv'}")
     return 0
 
 
 def cmd_plot(args):
-    print(api.plot(args.dir, args.output))
+    print(outcouple.plot(args.dir, args.output))
     return 0
 
 
 def cmd_report(args):
-    print(api.report(args.source, output=args.output, na=args.na))
+    print(outcouple.report(args.source, output=args.output, na=args.na))
     return 0
 
 
 def cmd_converge(args):
-    result = grid_convergence.converge(args.case, args.resolutions, args.tolerance, args.workers, not args.quiet)
+    result = outcouple.converge(args.case, args.resolutions, args.tolerance, args.workers, not args.quiet)
     print(json.dumps(result, indent=2) if args.json else tables.format_converge(result))
     sys.stdout.flush()
     if not result["converged"]:

@@ -276,13 +276,15 @@ def collect(out_dir, the_plan=None):
     return summaries, read_sweep(h5_path)
 
 
-def start(case_file, out, engine="local", workers=None, progress=True, cluster=None):
+def start(case_file, out, engine="local", workers=None, progress=True, cluster=None, wait=None):
     """Validate a case's ``[sweep]``, write its plan into ``out`` and run or submit what is not done.
 
     Returns a dict: ``points``, ``jobs``, ``done_before`` and, for the local
     engine, ``ran``, ``done``, ``failed`` (list of (values, job, reason));
     for SLURM, ``slurm_job`` (None when nothing needed submitting), ``tasks``
-    and ``jobs_per_task``. ``cluster`` overrides the case's ``[cluster]`` keys.
+    and ``jobs_per_task``, and with ``wait`` (seconds) the ``counts`` after
+    waiting that long at most for the array. ``cluster`` overrides the
+    case's ``[cluster]`` keys.
     """
     from fdtd_cases.case_file import load_case
 
@@ -302,7 +304,10 @@ def start(case_file, out, engine="local", workers=None, progress=True, cluster=N
         settings.update({k: v for k, v in (cluster or {}).items() if v is not None and k != "extra"})
         settings["extra"] = settings["extra"] + list((cluster or {}).get("extra") or [])
         job, tasks = submit_slurm(out, settings, sys.executable)
-        return {**info, "slurm_job": job, "tasks": tasks, "jobs_per_task": settings["jobs_per_task"]}
+        info.update({"slurm_job": job, "tasks": tasks, "jobs_per_task": settings["jobs_per_task"]})
+        if wait:
+            info["counts"] = wait_for(out, wait)
+        return info
     if progress:
         print(f"sweep of {info['points']} point(s), {total} job(s): {before} already done, "
               f"running {total - before}", file=sys.stderr)
@@ -311,7 +316,7 @@ def start(case_file, out, engine="local", workers=None, progress=True, cluster=N
     return {**info, "ran": ran, "done": counts["done"], "failed": failed}
 
 
-def wait(out, seconds):
+def wait_for(out, seconds):
     """Wait up to ``seconds`` while SLURM tasks of the sweep are queued or running; the final counts."""
     deadline = time.monotonic() + seconds
     while status(out)[1]["running"] and time.monotonic() < deadline:

@@ -38,7 +38,7 @@ def analyse(case, jobs, wavelengths, resolution):
 
 
 def far_field(case, jobs, combined, wavelengths, resolution):
-    """Escaped power per degree of ambient angle, combined like the efficiency (DESIGN.md).
+    """Escaped power per degree of ambient angle, combined like the efficiency (docs/conventions.md).
 
     Each job's pattern (from its top line, :func:`postprocess.farfield.line_pattern`)
     is divided by its bulk power and summed over jobs and wavelengths, then

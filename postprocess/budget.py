@@ -1,6 +1,6 @@
 """From line fluxes to the power budget and the extraction efficiency.
 
-Rules (DESIGN.md): the efficiency of one job at one wavelength is
+Rules (docs/conventions.md): the efficiency of one job at one wavelength is
 P_top / P_emitted, P_emitted being the outward flux through the closed
 contour around the emitter. Jobs and wavelengths are combined power-weighted:
 each job's fluxes are divided by the power its emitter would radiate in bulk

@@ -77,15 +77,15 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import optimize
 
+from .quadrature import gauss as _gauss
+from .quadrature import gauss_sqrt_ends as _gauss_sqrt_ends
+
 BACKS = ("open", "mirror", "metal", "substrate")
 
 _PARTS = {
     2: {"out-of-plane": (("s", 1),), "parallel": (("p", -1),), "normal": (("p", 1),)},
     3: {"out-of-plane": (("s", 1), ("p", -1)), "parallel": (("s", 1), ("p", -1)), "normal": (("p", 1),)},
 }
-_NODES = 64
-"""Gauss-Legendre nodes per panel of the integration paths."""
-_LEGENDRE = np.polynomial.legendre.leggauss(_NODES)
 
 
 @dataclass(frozen=True)
@@ -224,22 +224,6 @@ def _amplitude_weight(dim, pol, sigma, k0, k_ref, kappa, kz):
     if sigma < 0:
         return np.ones_like(kz), 3 * kappa / (8 * k0 ** 2 * k_ref)
     return kappa / kz, 3 * kappa / (4 * k0 ** 2 * k_ref)
-
-
-def _gauss(a, b, panels):
-    """Composite Gauss-Legendre nodes and weights on the (complex) segment a -> b."""
-    x, w = _LEGENDRE
-    edges = np.linspace(0, 1, panels + 1)
-    t = ((edges[:-1, None] + edges[1:, None]) / 2 + (edges[1:, None] - edges[:-1, None]) / 2 * x).ravel()
-    wt = ((edges[1:, None] - edges[:-1, None]) / 2 * w).ravel()
-    return a + (b - a) * t, (b - a) * wt
-
-
-def _gauss_sqrt_ends(a, b, panels):
-    """Nodes on the real interval [a, b] mapped by a cosine so end-point square roots integrate smoothly."""
-    t, w = _gauss(0.0, np.pi, panels)
-    t, w = t.real, w.real
-    return a + (b - a) * (1 - np.cos(t)) / 2, (b - a) * np.sin(t) / 2 * w
 
 
 def _real_k(stack, k0):

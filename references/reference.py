@@ -8,7 +8,7 @@ randomising-surface multi-pass estimate (:mod:`references.closed_forms`),
 which is what an ideal scattering texture would reach; both are bounds to
 compare against, not predictions of the pattern.
 
-Orientations and wavelengths combine as in the FDTD (DESIGN.md): every
+Orientations and wavelengths combine as in the FDTD (docs/conventions.md): every
 (orientation, wavelength) emitter carries the same bulk power, so emitted
 and escaped powers (fractions of the bulk power) add directly.
 """

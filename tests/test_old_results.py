@@ -1,0 +1,49 @@
+"""Result files written before the packages were rearranged still open, with the numbers they had.
+
+The file and the JSON its run printed were written by outcouple 0.1.0 at commit 5d7f157
+(tests/data/README.md): the reference here is the earlier program's own output.
+"""
+
+import json
+from pathlib import Path
+
+import pytest
+
+import outcouple
+from conftest import run_cli
+
+DATA = Path(__file__).resolve().parent / "data"
+OLD = DATA / "written_by_0.1.0.h5"
+
+
+def _flatten(value, prefix=""):
+    if isinstance(value, dict):
+        return {k: v for key, item in value.items() for k, v in _flatten(item, f"{prefix}.{key}").items()}
+    if isinstance(value, list):
+        return {k: v for i, item in enumerate(value) for k, v in _flatten(item, f"{prefix}[{i}]").items()}
+    return {prefix: value}
+
+
+def _same(ours, then):
+    ours, then = _flatten(ours), _flatten(then)
+    assert ours.keys() == then.keys(), f"keys differ: {sorted(set(ours) ^ set(then))}"
+    for key, value in then.items():
+        if isinstance(value, float):
+            assert ours[key] == pytest.approx(value, rel=1e-9, abs=1e-15), f"{key}: ours {ours[key]!r} vs then {value!r}"
+        else:
+            assert ours[key] == value, f"{key}: ours {ours[key]!r} vs then {value!r}"
+
+
+def test_show_of_an_old_file_gives_its_numbers():
+    then = json.loads((DATA / "written_by_0.1.0.json").read_text())
+    result = outcouple.show(OLD)
+    assert result.attrs["format_version"] == 1 and result.attrs["package_version"] == "0.1.0"
+    ours = result.to_dict()
+    assert ours.pop("result_file") == str(OLD) and then.pop("result_file") == "small_flat.h5"
+    _same(ours, then)
+
+
+def test_show_command_prints_what_the_api_returns():
+    shown = run_cli("show", OLD, "--json")
+    assert shown.returncode == 0, shown.stderr
+    _same(json.loads(shown.stdout), outcouple.show(OLD).to_dict())
