@@ -7,10 +7,9 @@ import numpy as np
 import pytest
 from matplotlib.image import imsave
 
-from browser import distinct_colours, find_chromium, ink_fraction, rendered_dom, screenshot
+from browser import distinct_colours, ink_fraction, rendered_dom, screenshot
 
-pytestmark = pytest.mark.skipif(find_chromium() is None,
-                                reason="chromium not found (scripts/chromium_local.sh installs it)")
+pytestmark = pytest.mark.usefixtures("chromium")  # conftest: skip, or fail on CI, without Chromium
 
 
 def png_base64():

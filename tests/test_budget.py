@@ -1,4 +1,4 @@
-"""Flux integration rule and the power-weighting rule of DESIGN.md (derived here)."""
+"""Flux integration rule and the power-weighting rule of docs/conventions.md (derived here)."""
 
 import numpy as np
 import pytest

@@ -2,22 +2,13 @@
 
 import pytest
 
-from conftest import CONFIGS, run_cli
+from conftest import CONFIGS, assert_refused, case_toml, make_case, run_cli
 
-GOOD = """
-[light]
-wavelength = 0.9
-[chip]
-index = 2.4
-[surface]
-pattern = "grating"
-period = 0.6
-height = 0.15
-fill = 0.5
-[emitter]
-depth = 0.5
-orientation = "out-of-plane"
-"""
+GOOD = case_toml(make_case(light={"wavelength": 0.9}, chip={"index": 2.4},
+                           surface={"pattern": "grating", "period": 0.6, "height": 0.15, "fill": 0.5},
+                           emitter={"orientation": "out-of-plane"}))
+INDEX_LINE = GOOD.splitlines().index("index = 2.4") + 1
+"""Where the TOML syntax error below is (tomllib reports it as '(at line N, column M)')."""
 
 BAD = {
     "unknown key": (GOOD.replace("fill = 0.5", "fil = 0.5"), "surface.fil", "allowed here"),
@@ -31,7 +22,8 @@ BAD = {
     "unknown pattern": (GOOD.replace('"grating"', '"zigzag"'), "surface.pattern", '"flat"'),
     "mirror without thickness": (GOOD.replace("index = 2.4", 'index = 2.4\nback = "mirror"'), "chip",
                                  "finite thickness"),
-    "toml syntax": (GOOD.replace("index = 2.4", "index = = 2.4"), "", "not valid TOML"),
+    "toml syntax": (GOOD.replace("index = 2.4", "index = = 2.4"), "bad_case.toml: is not valid TOML",
+                    f"at line {INDEX_LINE},"),
     "unknown film key": (GOOD + "[[film]]\nindex = 1.5\nthickness = 0.1\ncolour = 1\n", "film[0].colour",
                          "allowed here: index, thickness, alpha"),
     "film without thickness": (GOOD + "[[film]]\nindex = 1.5\n", "film[0].thickness", "missing"),
@@ -64,10 +56,7 @@ def test_bad_case_is_refused_clearly(tmp_path, name):
     case.write_text(text)
     for command in (["check", case], ["run", case, "-o", tmp_path / "out.h5", "--quiet"]):
         result = run_cli(*command, cwd=tmp_path)
-        assert result.returncode == 2, result.stderr
-        assert "Traceback" not in result.stderr
-        assert "bad_case.toml" in result.stderr and key in result.stderr and words in result.stderr, result.stderr
-        assert not list(tmp_path.glob("*.h5*")), "no result file may be written for bad input"
+        assert_refused(result, "bad_case.toml", key, words, folder=tmp_path, pattern="*.h5*")
 
 
 @pytest.mark.parametrize("name", ["unknown key", "wrong type", "unknown film key", "metal without extinction",
@@ -78,8 +67,8 @@ def test_reference_refuses_bad_cases(tmp_path, name):
     case = tmp_path / "bad_case.toml"
     case.write_text(text)
     result = run_cli("reference", case, "--json")
-    assert result.returncode == 2 and "Traceback" not in result.stderr and result.stdout == ""
-    assert "bad_case.toml" in result.stderr and key in result.stderr and words in result.stderr, result.stderr
+    assert_refused(result, "bad_case.toml", key, words)
+    assert result.stdout == ""
 
 
 @pytest.mark.parametrize("name", sorted(FDTD_ONLY))
@@ -89,15 +78,13 @@ def test_cases_beyond_the_fdtd(tmp_path, name):
     case.write_text(text)
     for command in (["check", case], ["run", case, "-o", tmp_path / "out.h5", "--quiet"]):
         result = run_cli(*command, cwd=tmp_path)
-        assert result.returncode == 2 and key in result.stderr and words in result.stderr, result.stderr
-        assert not list(tmp_path.glob("*.h5*"))
+        assert_refused(result, key, words, folder=tmp_path, pattern="*.h5*")
     assert run_cli("reference", case).returncode == 0
 
 
 def test_missing_file(tmp_path):
     result = run_cli("check", tmp_path / "nowhere.toml")
-    assert result.returncode == 2 and "nowhere.toml" in result.stderr and "no such file" in result.stderr
-    assert "Traceback" not in result.stderr
+    assert_refused(result, "nowhere.toml", "no such file")
 
 
 def test_coarse_grid_warns(tmp_path):
@@ -111,14 +98,14 @@ def test_coarse_grid_warns(tmp_path):
 
 def test_bad_command_line(tmp_path):
     result = run_cli("run", CONFIGS / "flat_check.toml", "--workers", "0")
-    assert result.returncode == 2 and "--workers" in result.stderr and "Traceback" not in result.stderr
+    assert_refused(result, "--workers")
 
 
 def test_show_refuses_a_non_result_file(tmp_path):
     other = tmp_path / "other.h5"
     other.write_bytes(b"not hdf5")
     result = run_cli("show", other)
-    assert result.returncode == 2 and "other.h5" in result.stderr and "Traceback" not in result.stderr
+    assert_refused(result, "other.h5")
 
 
 @pytest.mark.parametrize("config", sorted(p.name for p in CONFIGS.glob("*.toml")))
@@ -134,20 +121,18 @@ def test_shipped_configs_are_valid(config):
 
 def test_numerical_aperture_beyond_the_ambient(tmp_path):
     result = run_cli("run", CONFIGS / "flat_check.toml", "--na", "1.5", "-o", tmp_path / "out.h5", "--quiet")
-    assert result.returncode == 2 and "--na" in result.stderr and "ambient index" in result.stderr, result.stderr
-    assert "Traceback" not in result.stderr and not list(tmp_path.glob("*.h5*"))
+    assert_refused(result, "--na", "ambient index", folder=tmp_path, pattern="*.h5*")
 
 
 def test_report_and_converge_refuse_bad_input(tmp_path):
     other = tmp_path / "other.h5"
     other.write_bytes(b"not hdf5")
     result = run_cli("report", other)
-    assert result.returncode == 2 and "other.h5" in result.stderr and "not an HDF5 file" in result.stderr
-    assert not list(tmp_path.glob("*.html*"))
+    assert_refused(result, "other.h5", "not an HDF5 file", folder=tmp_path, pattern="*.html*")
     result = run_cli("report", tmp_path)
-    assert result.returncode == 2 and "not a sweep folder" in result.stderr
+    assert_refused(result, "not a sweep folder", folder=tmp_path, pattern="*.html*")
     for bad in ("24", "24,24", "24,x", "0,24"):
         result = run_cli("converge", CONFIGS / "flat_check.toml", "--resolutions", bad)
-        assert result.returncode == 2 and "--resolutions" in result.stderr and "Traceback" not in result.stderr
+        assert_refused(result, "--resolutions")
     result = run_cli("converge", CONFIGS / "flat_check.toml", "--resolutions", "10,20")
-    assert result.returncode == 2 and "--resolutions" in result.stderr and "fewer than 8" in result.stderr
+    assert_refused(result, "--resolutions", "fewer than 8")

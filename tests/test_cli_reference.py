@@ -4,26 +4,16 @@ import json
 import math
 
 import pytest
+from scipy.integrate import quad
 
-from conftest import CONFIGS, run_cli
+from conftest import CONFIGS, case_toml, make_case, run_cli
 from fdtd_cases.case import ORIENTATIONS
 from references import closed_forms
 from references import multilayer as ml
 
-FLAT = """
-[light]
-wavelength = 0.82
-[chip]
-index = 3.1
-thickness = 0.9
-back = "mirror"
-[[film]]
-index = 1.8
-thickness = 0.114
-[emitter]
-depth = 0.33
-orientation = "isotropic"
-"""
+FLAT_TABLES = {"light": {"wavelength": 0.82}, "chip": {"index": 3.1, "thickness": 0.9, "back": "mirror"},
+               "film": [{"index": 1.8, "thickness": 0.114}], "emitter": {"depth": 0.33, "orientation": "isotropic"}}
+FLAT = case_toml(make_case(**FLAT_TABLES))
 
 FIELDS = ("efficiency", "by_orientation", "budget", "emission_factor")
 
@@ -31,7 +21,7 @@ FIELDS = ("efficiency", "by_orientation", "budget", "emission_factor")
 def test_flat_case_json(tmp_path):
     """The JSON carries the line emitter's numbers and the point dipole's under point_dipole; each
     orientation's value equals a direct call of the exact solver on the same stack, and the
-    combined value is the emission-weighted mean (DESIGN.md's rule)."""
+    combined value is the emission-weighted mean (the rule of docs/conventions.md)."""
     case = tmp_path / "flat.toml"
     case.write_text(FLAT)
     result = run_cli("reference", case, "--json")
@@ -60,9 +50,8 @@ def test_patterned_case_reports_bounds(tmp_path):
     """A patterned case: the flat baseline of the same stack and the randomising multi-pass
     estimate, labelled as bounds; the multi-pass value equals closed_forms.multipass with a
     perfect mirror (reflectivity 1)."""
-    text = FLAT.replace("[emitter]", '[surface]\npattern = "triangle"\nperiod = 1.2\nheight = 0.2\n[emitter]')
     case = tmp_path / "textured.toml"
-    case.write_text(text)
+    case.write_text(case_toml(make_case(**FLAT_TABLES, surface={"pattern": "triangle", "period": 1.2, "height": 0.2})))
     data = json.loads(run_cli("reference", case, "--json").stdout)
     assert "bound" in data["kind"] and "not a prediction" in data["kind"]
     expected = closed_forms.multipass(3.1, 1.0, 0.0, 0.9, 0.33, 1.0, dim=3)
@@ -92,4 +81,10 @@ def test_collected_fraction_rays_against_exact():
     tolerance = 4 * rays["statistical_error"] + 0.002 * exact["collected"]
     assert rays["collected"] == pytest.approx(exact["collected"], abs=tolerance), \
         f"rays {rays['collected']:.5f} vs exact {exact['collected']:.5f} (tolerance {tolerance:.5f})"
-    assert exact["collection"]["lambertian"] == pytest.approx(exact["efficiency"] * 0.5)
+    # Derived here: a 2-D Lambertian pattern I(theta) = E cos(theta)/2 integrates to E sin(half-angle);
+    # computed by quadrature of cos(theta) over the fan |theta| <= 30 deg, normalised to the escaped
+    # efficiency E over -90..90 deg.
+    half = math.radians(30.0)
+    share = quad(math.cos, -half, half)[0] / quad(math.cos, -math.pi / 2, math.pi / 2)[0]
+    assert exact["collection"]["lambertian"] == pytest.approx(exact["efficiency"] * share, rel=1e-9), \
+        f"Lambertian in the fan {exact['collection']['lambertian']:.6f} vs quadrature {exact['efficiency'] * share:.6f}"

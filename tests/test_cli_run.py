@@ -5,22 +5,13 @@ import json
 import h5py
 import pytest
 
-from conftest import requires_meep, run_cli
+from conftest import case_toml, make_case, requires_meep, run_cli
 from references import planar
 
 pytestmark = [requires_meep, pytest.mark.fdtd]
 
-CASE = """
-[light]
-wavelength = 1.0
-band = 0.1
-samples = 2
-[chip]
-index = 2.5
-[emitter]
-depth = 0.4
-orientation = "out-of-plane"
-"""
+CASE = case_toml(make_case(light={"band": 0.1, "samples": 2}, chip={"index": 2.5},
+                           emitter={"depth": 0.4, "orientation": "out-of-plane"}))
 
 
 def test_run_json_hdf5_and_show(tmp_path):

@@ -5,7 +5,7 @@ import json
 
 import pytest
 
-from conftest import SMALL_FLAT_CASE, requires_meep, run_cli
+from conftest import SMALL_FLAT_CASE, assert_refused, make_case, requires_meep, run_cli
 
 CASE = SMALL_FLAT_CASE
 
@@ -33,8 +33,7 @@ def test_compare_writes_table_csv_and_plot(tmp_path):
                              "difference", "differs"]
     assert (out / "compare.png").stat().st_size > 10000
     for row in data["rows"]:
-        exact = planar(parse_case({"light": {"wavelength": 1.0}, "chip": {"index": 2.0},
-                                   "emitter": {"depth": row["emitter.depth"], "orientation": "out-of-plane"}}))
+        exact = planar(parse_case(make_case(emitter={"depth": row["emitter.depth"], "orientation": "out-of-plane"})))
         assert row["fdtd"] == pytest.approx(exact["efficiency"], rel=0.03)
         assert row["differs"] == (abs(row["rays"] / row["fdtd"] - 1) > 0.05)
     assert not list(out.glob("*.partial*"))
@@ -51,6 +50,4 @@ def test_compare_refuses_bad_ranges(tmp_path, vary, key, words):
     case = tmp_path / "flat.toml"
     case.write_text(CASE)
     result = run_cli("compare", case, "--vary", vary, "-o", tmp_path / "cmp", cwd=tmp_path)
-    assert result.returncode == 2 and "Traceback" not in result.stderr
-    assert key in result.stderr and words in result.stderr, result.stderr
-    assert not (tmp_path / "cmp").exists()
+    assert_refused(result, key, words, folder=tmp_path, pattern="cmp")

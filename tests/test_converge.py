@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 from scipy.integrate import quad, simpson
 
-from conftest import SMALL_FLAT_CASE, requires_meep, run_cli
+from conftest import SMALL_FLAT_CASE, case_toml, requires_meep, run_cli, small_flat_case
 from postprocess.convergence import extrapolate
 
 
@@ -51,7 +51,7 @@ def test_oscillating_levels_are_flagged():
 
 def _converge(tmp_path, orientation, *extra):
     case = tmp_path / f"{orientation}.toml"
-    case.write_text(SMALL_FLAT_CASE.replace('"out-of-plane"', f'"{orientation}"'))
+    case.write_text(case_toml(small_flat_case(emitter={"orientation": orientation})))
     done = run_cli("converge", case, "--json", "--quiet", *extra)
     assert done.returncode == 0, done.stderr
     return json.loads(done.stdout), done

@@ -41,7 +41,7 @@ machine (2 cores): 16 s for the file when idle, 25 s beside another Meep run.
 import numpy as np
 import pytest
 
-from conftest import requires_meep
+from conftest import make_case, requires_meep
 
 pytestmark = [requires_meep, pytest.mark.fdtd]
 
@@ -91,14 +91,10 @@ the grid; a missing factor 2 would be 50% or 100% off)."""
 
 
 def grating_case(orientation, n_ambient):
-    return {
-        "light": {"wavelength": 1.0},
-        "ambient": {"index": n_ambient},
-        "chip": {"index": 2.4},
-        "surface": {"pattern": "grating", "period": 0.9, "fill": 0.5, "height": 0.25},
-        "emitter": {"depth": 0.6, "x": [X_EMITTER], "orientation": orientation},
-        "grid": {"points_per_wavelength": 12},
-    }
+    return make_case(ambient={"index": n_ambient}, chip={"index": 2.4},
+                     surface={"pattern": "grating", "period": 0.9, "fill": 0.5, "height": 0.25},
+                     emitter={"depth": 0.6, "x": [X_EMITTER], "orientation": orientation},
+                     grid={"points_per_wavelength": 12})
 
 
 def run_with_near2far(data, orientation):

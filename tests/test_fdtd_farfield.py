@@ -9,14 +9,18 @@ the top monitor near its ends, which the far field of a finite line cannot place
 
 import json
 
+import math
+
 import numpy as np
 import pytest
+from scipy.integrate import quad, trapezoid
 
-from conftest import SMALL_FLAT_CASE, requires_meep, run_cli
+from conftest import case_toml, requires_meep, run_cli, small_flat_case
 
-CASE = (SMALL_FLAT_CASE.replace('"out-of-plane"', '"isotropic"')
-        .replace("points_per_wavelength = 12", "points_per_wavelength = 16\nwidth = 24.0")
-        + "[collection]\nna = 0.5\n")
+pytestmark = [requires_meep, pytest.mark.fdtd]
+
+CASE = case_toml(small_flat_case(emitter={"orientation": "isotropic"},
+                                 grid={"points_per_wavelength": 16, "width": 24.0}, collection={"na": 0.5}))
 
 
 @pytest.fixture(scope="module")
@@ -28,7 +32,6 @@ def flat_run(tmp_path_factory):
     return json.loads(done.stdout)
 
 
-@requires_meep
 def test_farfield_integrates_to_the_top_flux(flat_run):
     ff = flat_run["farfield"]
     assert ff["angle"][0] == -90 and ff["angle"][-1] == 90 and len(ff["angle"]) == len(ff["intensity"])
@@ -42,7 +45,6 @@ def test_farfield_integrates_to_the_top_flux(flat_run):
             f"{name}: far-field integral {got:.5f} vs top flux {flat_run['by_orientation'][name]:.5f}"
 
 
-@requires_meep
 def test_farfield_matches_the_exact_planar_distribution(flat_run):
     from postprocess import farfield
 
@@ -62,12 +64,25 @@ def test_farfield_matches_the_exact_planar_distribution(flat_run):
     assert half == pytest.approx(farfield.half_power_angle(angles, exact), abs=1.5)
 
 
-@requires_meep
 def test_collected_fraction_against_exact(flat_run):
     c = flat_run["collection"]
     assert c["na"] == 0.5 and c["half_angle"] == pytest.approx(30.0)
     assert flat_run["collected"] == pytest.approx(c["exact"], rel=0.03), \
         f"collected FDTD {flat_run['collected']:.5f} vs exact {c['exact']:.5f}"
-    # Lambertian with the same escaped power: efficiency * sin(30 deg) (2-D; test_farfield.py).
-    assert c["lambertian"] == pytest.approx(0.5 * flat_run["efficiency"], rel=1e-9)
-    assert c["of_escaped"] == pytest.approx(flat_run["collected"] / flat_run["efficiency"])
+    # Derived here: a 2-D Lambertian pattern I(theta) = E cos(theta)/2 integrates to E sin(half-angle);
+    # computed by quadrature of cos(theta) over the fan |theta| <= 30 deg (NA 0.5 in air), normalised
+    # to the escaped efficiency E over -90..90 deg.
+    half = math.radians(30.0)
+    share = quad(math.cos, -half, half)[0] / quad(math.cos, -math.pi / 2, math.pi / 2)[0]
+    lambertian = flat_run["efficiency"] * share
+    assert c["lambertian"] == pytest.approx(lambertian, rel=1e-9), \
+        f"Lambertian in the fan {c['lambertian']:.6f} vs quadrature {lambertian:.6f}"
+    # Derived here: the share of the run's own far field (the escaped light) inside |theta| <= 30 deg,
+    # trapezoid on its 1-degree samples (30 deg is a sample) over the trapezoid on all of them. The
+    # package divides by the top flux instead, so the two differ by the far-field closure (< 1%,
+    # asserted in test_farfield_integrates_to_the_top_flux).
+    angle, intensity = np.array(flat_run["farfield"]["angle"]), np.array(flat_run["farfield"]["intensity"])
+    fan = np.abs(angle) <= 30.0
+    of_escaped = trapezoid(intensity[fan], angle[fan]) / trapezoid(intensity, angle)
+    assert c["of_escaped"] == pytest.approx(of_escaped, rel=0.01), \
+        f"collected share of the escaped light {c['of_escaped']:.5f} vs far-field integral {of_escaped:.5f}"

@@ -8,7 +8,7 @@ second order towards the exact value (measured; see the README's validation tabl
 import numpy as np
 import pytest
 
-from conftest import requires_meep, run_in_process
+from conftest import make_case, requires_meep, run_in_process
 from references import planar
 from postprocess.budget import bulk_power
 
@@ -17,8 +17,7 @@ from fdtd_cases.case import ORIENTATIONS
 
 
 def flat_case(n_chip, depth=0.35, ppw=24, **extra):
-    data = {"light": {"wavelength": 1.0}, "chip": {"index": n_chip}, "emitter": {"depth": depth},
-            "grid": {"points_per_wavelength": ppw}}
+    data = make_case(chip={"index": n_chip}, emitter={"depth": depth}, grid={"points_per_wavelength": ppw})
     for key, value in extra.items():
         table, name = key.split("__")
         data.setdefault(table, {})[name] = value

@@ -8,7 +8,7 @@ bands); the numbers measured there are in the README.
 
 import pytest
 
-from conftest import requires_meep, run_case
+from conftest import make_case, requires_meep, run_case
 from fdtd_cases.case_file import parse_case
 from fdtd_cases.layout import make_layout
 from references import raytrace
@@ -30,10 +30,8 @@ def test_large_period_v_grooves_agree():
     to hold (common practice: period >> lambda / n). The combined efficiency agrees within 5%
     (measured +2.4%). Per orientation the agreement at this one position was within 4% but moved
     to 16% at another position, so only the combined value is asserted."""
-    data = {"light": {"wavelength": 1.0, "band": 0.2, "samples": 7}, "chip": {"index": 2.0},
-            "surface": {"pattern": "triangle", "period": 6.0, "height": 3.0},
-            "emitter": {"depth": 7.0, "orientation": "isotropic"},
-            "grid": {"points_per_wavelength": 12, "width": 24}}
+    data = make_case(light={"band": 0.2, "samples": 7}, surface={"pattern": "triangle", "period": 6.0, "height": 3.0},
+                     emitter={"depth": 7.0, "orientation": "isotropic"}, grid={"points_per_wavelength": 12, "width": 24})
     _, wave, ray = both(data)
     assert ray["efficiency"] == pytest.approx(wave["efficiency"], rel=0.05), \
         f"rays {ray['efficiency']:.4f} vs FDTD {wave['efficiency']:.4f} ({100 * (ray['efficiency'] / wave['efficiency'] - 1):+.1f}%)"
@@ -44,10 +42,8 @@ def test_subwavelength_texture_disagrees():
     to diffract into air anywhere in the band, so the wave sees a graded layer and stays near the
     flat chip (exact planar solver), while rays see 45-degree facets. Ray optics must be shown
     wrong here: combined +16% measured, the normal emitter four times too high."""
-    data = {"light": {"wavelength": 1.0, "band": 0.2, "samples": 5}, "chip": {"index": 2.0},
-            "surface": {"pattern": "triangle", "period": 0.25, "height": 0.25},
-            "emitter": {"depth": 2.0, "orientation": "isotropic"},
-            "grid": {"points_per_wavelength": 16, "width": 10}}
+    data = make_case(light={"band": 0.2, "samples": 5}, surface={"pattern": "triangle", "period": 0.25, "height": 0.25},
+                     emitter={"depth": 2.0, "orientation": "isotropic"}, grid={"points_per_wavelength": 16, "width": 10})
     case, wave, ray = both(data)
     gap = ray["efficiency"] / wave["efficiency"] - 1
     assert gap > 0.10, f"rays {ray['efficiency']:.4f} vs FDTD {wave['efficiency']:.4f}: only {100 * gap:+.1f}%"

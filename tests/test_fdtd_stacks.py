@@ -7,7 +7,7 @@ package's public API, as ``outcouple run`` runs them, two worker processes at a 
 
 import pytest
 
-from conftest import requires_meep, run_case
+from conftest import make_case, requires_meep, run_case
 from fdtd_cases.case_file import parse_case
 from references.reference import planar
 
@@ -18,8 +18,8 @@ def test_anti_reflection_film():
     """A quarter-wave film (n = 1.73, 0.1445 um) on an n = 3.0 half-space: top fraction per
     orientation within 3% of exact, and the film raises the efficiency over the bare chip as the
     exact solver says it must."""
-    data = {"light": {"wavelength": 1.0}, "chip": {"index": 3.0}, "film": [{"index": 1.73, "thickness": 0.1445}],
-            "emitter": {"depth": 0.35, "orientation": "isotropic"}, "grid": {"points_per_wavelength": 24}}
+    data = make_case(chip={"index": 3.0}, film=[{"index": 1.73, "thickness": 0.1445}],
+                     emitter={"depth": 0.35, "orientation": "isotropic"}, grid={"points_per_wavelength": 24})
     summary = run_case(data)
     exact = summary["reference"]
     for name, ours in summary["by_orientation"].items():
@@ -40,8 +40,8 @@ def test_thin_chip_on_a_mirror():
     A thin chip on a mirror is badly conditioned (the efficiency moves by several percent per nm
     of thickness) and converges slowly: 90 points per um here, where 60 leaves the out-of-plane
     value +3.9% high through grid dispersion."""
-    data = {"light": {"wavelength": 1.0}, "chip": {"index": 3.3, "thickness": 0.6, "back": "mirror"},
-            "emitter": {"depth": 0.25, "orientation": "isotropic"}, "grid": {"resolution": 90}}
+    data = make_case(chip={"index": 3.3, "thickness": 0.6, "back": "mirror"},
+                     emitter={"depth": 0.25, "orientation": "isotropic"}, grid={"resolution": 90})
     summary = run_case(data)
     exact = summary["reference"]
     for job in summary["jobs"]:

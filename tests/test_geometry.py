@@ -1,15 +1,15 @@
-"""Surface patterns: conventions of DESIGN.md and the definitions in the README's case reference."""
+"""Surface patterns: conventions of docs/conventions.md and the definitions in the README's case reference."""
 
 import numpy as np
 import pytest
 
 from fdtd_cases import geometry
+from conftest import make_case
 from fdtd_cases.case_file import parse_case
 
 
 def _surface(**table):
-    return parse_case({"light": {"wavelength": 1.0}, "chip": {"index": 2.0}, "emitter": {"depth": 2.0},
-                       "surface": table}).surface
+    return parse_case(make_case(emitter={"depth": 2.0}, surface=table)).surface
 
 
 PATTERNS = [

@@ -10,6 +10,7 @@ import matplotlib.figure
 import numpy as np
 import pytest
 
+from conftest import make_case
 from fdtd_cases.case_file import parse_case
 from fdtd_cases.layout import make_layout
 from postprocess import farfield, plots
@@ -17,9 +18,9 @@ from postprocess import farfield, plots
 UNITS = ("(µm)", "(degrees)", "fraction of the emitted power", "(dB below peak)", "(top / emitted)",
          "% of the emitted power per degree", "(no unit)", "(1/cm)", "(fraction of the period)")
 
-CASE = {"light": {"wavelength": 1.0, "band": 0.2, "samples": 3}, "chip": {"index": 2.4},
-        "surface": {"pattern": "grating", "period": 0.8, "fill": 0.5, "height": 0.2},
-        "emitter": {"depth": 0.6, "orientation": "out-of-plane"}}
+CASE = make_case(light={"band": 0.2, "samples": 3}, chip={"index": 2.4},
+                 surface={"pattern": "grating", "period": 0.8, "fill": 0.5, "height": 0.2},
+                 emitter={"depth": 0.6, "orientation": "out-of-plane"})
 
 
 @pytest.fixture

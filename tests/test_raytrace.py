@@ -6,7 +6,7 @@ import math
 import numpy as np
 import pytest
 
-from conftest import run_cli
+from conftest import assert_refused, case_toml, make_case, run_cli
 from fdtd_cases.case_file import parse_case
 from fdtd_cases.layout import make_layout
 from references import closed_forms, multilayer, raytrace
@@ -14,11 +14,10 @@ from references import closed_forms, multilayer, raytrace
 from fdtd_cases.case import ORIENTATIONS
 
 
-def case_of(**tables):
-    data = {"light": {"wavelength": 1.0}, "chip": {"index": 3.0}, "emitter": {"depth": 0.6}}
-    for name, table in tables.items():
-        data[name] = table if isinstance(table, list) else {**data.get(name, {}), **table}
-    case = parse_case(data)
+def case_of(chip=None, emitter=None, **tables):
+    """A flat n = 3 chip, emitter 0.6 µm deep, with the given tables merged in (as make_case does)."""
+    case = parse_case(make_case(chip={"index": 3.0, **(chip or {})}, emitter={"depth": 0.6, **(emitter or {})},
+                                **tables))
     return case, make_layout(case, fdtd=False)
 
 
@@ -124,8 +123,9 @@ def test_v_groove_path_count(pol):
 
 def test_rays_command_json(tmp_path):
     case = tmp_path / "texture.toml"
-    case.write_text('[light]\nwavelength = 0.9\n[chip]\nindex = 2.4\n[surface]\npattern = "triangle"\n'
-                    'period = 3.0\nheight = 1.5\n[emitter]\ndepth = 2.0\n')
+    case.write_text(case_toml(make_case(light={"wavelength": 0.9}, chip={"index": 2.4},
+                                        surface={"pattern": "triangle", "period": 3.0, "height": 1.5},
+                                        emitter={"depth": 2.0})))
     result = run_cli("rays", case, "--rays", "4000", "--json", "--quiet")
     assert result.returncode == 0, result.stderr
     data = json.loads(result.stdout)
@@ -141,7 +141,8 @@ def test_rays_command_json(tmp_path):
 
 def test_rays_refuses_periodic_for_a_random_surface(tmp_path):
     case = tmp_path / "rough.toml"
-    case.write_text('[light]\nwavelength = 0.9\n[chip]\nindex = 2.4\n[surface]\npattern = "random"\n'
-                    'rms = 0.1\ncorrelation = 0.3\n[emitter]\ndepth = 1.0\n')
+    case.write_text(case_toml(make_case(light={"wavelength": 0.9}, chip={"index": 2.4},
+                                        surface={"pattern": "random", "rms": 0.1, "correlation": 0.3},
+                                        emitter={"depth": 1.0})))
     result = run_cli("rays", case, "--lateral", "periodic")
-    assert result.returncode == 2 and "--lateral" in result.stderr and "Traceback" not in result.stderr
+    assert_refused(result, "--lateral")

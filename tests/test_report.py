@@ -15,18 +15,19 @@ import numpy as np
 import pytest
 
 import browser
-from conftest import SMALL_FLAT_CASE, requires_meep, run_cli
+from conftest import assert_refused, case_toml, requires_meep, run_cli, small_flat_case
 
 RESULT_SECTIONS = ("case", "grid", "structure", "efficiency", "budget", "farfield", "spectrum", "fields", "cautions")
 SWEEP_SECTIONS = ("case", "grid", "sweep", "budget", "farfield", "cautions")
 FIELD_DARKEST = (0x0D, 0x1B, 0x2A)
 """First colour of postprocess.plots.FIELD_SCALE: only the field pictures use it."""
 
-requires_chromium = pytest.mark.skipif(browser.find_chromium() is None,
-                                       reason="chromium not found (scripts/chromium_local.sh installs it)")
+requires_chromium = pytest.mark.usefixtures("chromium")
+"""conftest's session-scoped fixture: checked before the module's FDTD run is set up."""
 pytestmark = [requires_meep, pytest.mark.fdtd]
 
-CASE = SMALL_FLAT_CASE.replace('orientation = "out-of-plane"', 'orientation = "isotropic"')
+CASE = case_toml(small_flat_case(emitter={"orientation": "isotropic"}))
+SWEEP_CASE = case_toml(small_flat_case(sweep={"emitter.depth": [0.4, 0.6]}))
 
 
 @pytest.fixture(scope="module")
@@ -90,7 +91,7 @@ def _pixels_near(png, colour, tol=6):
 @requires_chromium
 def test_sweep_report_renders_in_chromium(tmp_path):
     case = tmp_path / "sweep.toml"
-    case.write_text(SMALL_FLAT_CASE + '\n[sweep]\n"emitter.depth" = [0.4, 0.6]\n')
+    case.write_text(SWEEP_CASE)
     out = tmp_path / "sw"
     assert run_cli("sweep", case, "--out", out, "--quiet", cwd=tmp_path).returncode == 0
     made = run_cli("report", out, "--na", "0.4")
@@ -108,10 +109,9 @@ def test_sweep_report_renders_in_chromium(tmp_path):
 
 def test_report_of_an_unfinished_sweep_is_refused(tmp_path):
     case = tmp_path / "sweep.toml"
-    case.write_text(SMALL_FLAT_CASE + '\n[sweep]\n"emitter.depth" = [0.4, 0.6]\n')
+    case.write_text(SWEEP_CASE)
     out = tmp_path / "sw"
     assert run_cli("sweep", case, "--out", out, "--quiet", cwd=tmp_path).returncode == 0
     next((out / "jobs").glob("*.h5")).unlink()
     refused = run_cli("report", out)
-    assert refused.returncode == 2 and "not done" in refused.stderr and "Traceback" not in refused.stderr
-    assert not (out / "report.html").exists()
+    assert_refused(refused, "not done", folder=out, pattern="report.html")

@@ -15,7 +15,7 @@ import time
 
 import pytest
 
-from conftest import SMALL_FLAT_CASE, requires_meep, run_cli
+from conftest import assert_refused, case_toml, requires_meep, run_cli, service_missing, small_flat_case
 
 
 def slurm_reason():
@@ -31,17 +31,19 @@ def slurm_reason():
     return None
 
 
-REASON = slurm_reason()
-needs_slurm = pytest.mark.skipif(REASON is not None, reason=f"SLURM unavailable: {REASON}")
+@pytest.fixture(scope="module")
+def slurm():
+    """SLURM is up, or skip (fail on CI) saying why."""
+    reason = slurm_reason()
+    if reason is not None:
+        service_missing(f"SLURM unavailable: {reason}")
 
-SWEEP = SMALL_FLAT_CASE.replace("points_per_wavelength = 12", "points_per_wavelength = 28") + """
-[sweep]
-"emitter.depth" = [0.4, 0.6]
-"chip.index" = [2.0, 2.4]
-[cluster]
-time = "00:10:00"
-mem = "1G"
-"""
+
+needs_slurm = pytest.mark.usefixtures("slurm")
+
+SWEEP = case_toml(small_flat_case(grid={"points_per_wavelength": 28},
+                                  sweep={"emitter.depth": [0.4, 0.6], "chip.index": [2.0, 2.4]},
+                                  cluster={"time": "00:10:00", "mem": "1G"}))
 
 
 def task_state(job, task):
@@ -83,7 +85,7 @@ def test_slurm_sweep_survives_a_killed_task(tmp_path):
     status = run_cli("status", out).stdout
     assert "done 3" in status and "failed 1" in status, status
     assert "CANCELLED" in status, status
-    assert run_cli("collect", out).returncode == 2, "collect must refuse an unfinished sweep"
+    assert_refused(run_cli("collect", out), "not done", folder=out, pattern="sweep.h5")  # an unfinished sweep
 
     resumed = run_cli("sweep", case, "--out", out, "--engine", "slurm", "--wait", "300", cwd=tmp_path)
     assert resumed.returncode == 0, resumed.stdout + resumed.stderr
@@ -111,8 +113,7 @@ def test_unreachable_slurm_is_a_clear_error(tmp_path):
     env = dict(os.environ, PATH="/nonexistent")
     result = subprocess.run([sys.executable, "-m", "outcouple.cli", "sweep", str(case), "--out", str(tmp_path / "x"),
                              "--engine", "slurm"], capture_output=True, text=True, env=env, timeout=120)
-    assert result.returncode == 2 and "--engine" in result.stderr and "sbatch" in result.stderr, result.stderr
-    assert not list((tmp_path / "x").glob("jobs/*.h5"))
+    assert_refused(result, "--engine", "sbatch", folder=tmp_path / "x", pattern="jobs/*.h5")
 
 
 @needs_slurm
@@ -121,8 +122,7 @@ def test_misconfigured_slurm_request_is_a_clear_error(tmp_path):
     case = tmp_path / "sweep.toml"
     case.write_text(SWEEP)
     result = run_cli("sweep", case, "--out", tmp_path / "x", "--engine", "slurm", "--partition", "no_such_partition")
-    assert result.returncode == 2 and "--engine" in result.stderr and "sbatch refused" in result.stderr, result.stderr
-    assert not list((tmp_path / "x" / "slurm").glob("batch-*.json"))
+    assert_refused(result, "--engine", "sbatch refused", folder=tmp_path / "x" / "slurm", pattern="batch-*.json")
 
 
 @requires_meep
@@ -145,24 +145,24 @@ MPI_ENV = (f"--export=ALL,PYTHONPATH={MPI_PREFIX}/usr/lib/python3/dist-packages,
            f"LD_LIBRARY_PATH={MPI_PREFIX}/usr/lib/x86_64-linux-gnu")
 
 
+@pytest.fixture(scope="module")
+def mpi_meep():
+    """The MPI build of Meep and mpirun, or skip (fail on CI) saying how to provide them."""
+    if not (shutil.which("mpirun") and os.path.isdir(f"{MPI_PREFIX}/usr/lib/python3/dist-packages/meep")):
+        service_missing("MPI Meep not provided (make test runs scripts/meep_mpi_local.sh)")
+
+
 @requires_meep
 @pytest.mark.fdtd
-@needs_slurm
-@pytest.mark.skipif(not (shutil.which("mpirun") and os.path.isdir(f"{MPI_PREFIX}/usr/lib/python3/dist-packages/meep")),
-                    reason="MPI Meep not provided (make test runs scripts/meep_mpi_local.sh)")
+@pytest.mark.usefixtures("slurm", "mpi_meep")
 def test_mpi_tasks_give_the_serial_answer(tmp_path):
     """mpi_ranks = 2: each array task runs its job on two MPI processes of the MPI build (the log
     says so), and the collected efficiency and budget equal a local serial sweep of the same case
     (Meep's parallel runs are deterministic: domain decomposition does not change the update)."""
-    text = SMALL_FLAT_CASE.replace('orientation = "out-of-plane"', 'orientation = "parallel"') + f"""
-[sweep]
-"emitter.depth" = [0.5]
-[cluster]
-time = "00:10:00"
-mpi_ranks = 2
-mpi_launch = "mpirun --allow-run-as-root --oversubscribe -np {{ranks}}"
-extra = ["{MPI_ENV}"]
-"""
+    text = case_toml(small_flat_case(emitter={"orientation": "parallel"}, sweep={"emitter.depth": [0.5]},
+                                     cluster={"time": "00:10:00", "mpi_ranks": 2,
+                                              "mpi_launch": "mpirun --allow-run-as-root --oversubscribe -np {ranks}",
+                                              "extra": [MPI_ENV]}))
     case = tmp_path / "mpi.toml"
     case.write_text(text)
     result = run_cli("sweep", case, "--out", tmp_path / "mpi", "--engine", "slurm", "--wait", "300", cwd=tmp_path)
