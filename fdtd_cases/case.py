@@ -234,7 +234,7 @@ Surface = Annotated[Union[Flat, Grating, Triangle, Sine, Random, Profile], Field
 
 
 class Emitter(_Table):
-    """``[emitter]``: the buried line emitter(s).
+    """``[emitter]``: the buried emitter(s).
 
     Parameters
     ----------
@@ -246,12 +246,17 @@ class Emitter(_Table):
         Direction of the emitting current; ``isotropic`` is all three.
     contour : float, optional
         Half-width of the square flux contour around the emitter, µm.
+    source : {"line", "point"}
+        ``line``: a line current along z (the 2-D problem itself); ``point``:
+        a 3-D point dipole at each position, integrated over the out-of-plane
+        wavenumber (:mod:`fdtd_cases.kz`); the orientation is the dipole's direction.
     """
 
     depth: Length
     x: list[Annotated[float, Field(allow_inf_nan=False)]] = Field(default=[0.0], min_length=1)
     orientation: Literal["parallel", "normal", "out-of-plane", "isotropic"] = "isotropic"
     contour: Optional[Length] = None
+    source: Literal["line", "point"] = "line"
 
     @field_validator("x", mode="before")
     def _single_number(cls, value):
@@ -284,6 +289,11 @@ class Grid(_Table):
     decay : float
         Stop rule: the run ends when the DFT fields change by less than this
         fraction over one period of the highest sampled frequency.
+    kz_nodes : int
+        Point sources: the least number of Gauss nodes per piece of the
+        out-of-plane wavenumber integral (more where the emitter's depth
+        makes fringes, :mod:`fdtd_cases.kz`); one 2-D run each, per
+        orientation, position and wavelength.
     """
 
     resolution: Optional[Length] = None
@@ -291,6 +301,7 @@ class Grid(_Table):
     pml: Optional[Length] = None
     width: Optional[Length] = None
     decay: float = Field(1e-8, gt=0, lt=0.1)
+    kz_nodes: Annotated[int, Field(ge=2, le=32)] = 4
 
 
 class Cluster(_Table):

@@ -5,6 +5,15 @@ position from a :class:`fdtd_cases.layout.Layout` and returns plain numpy
 arrays: the DFT tangential fields on the monitor lines (on Meep's Yee grid),
 Meep's own flux through the same lines (kept for cross-checks only), the
 Fourier transform of the source current, and run facts.
+
+A job of a point source is one node of the integral over the out-of-plane
+wavenumber kz (:mod:`fdtd_cases.kz`): the 2-D cell with Bloch phase
+exp(i kz z) (Meep's ``k_point = (0, 0, kz)``, all six field components) at
+one wavelength. With any ``k_point`` Meep 1.25 copies every object one cell
+over in each direction unless ``ensure_periodicity=False``, and an object
+that reaches outside the cell (the chip polygon, the mirror and substrate
+blocks) then fills the whole cell: it is turned off, and the run checks the
+ambient and the chip's epsilon before it starts.
 """
 
 import time
@@ -20,6 +29,8 @@ COMPONENTS = {
     "normal": (mp.Ey, ("ex", "ey", "hz")),
     "out-of-plane": (mp.Ez, ("ez", "hx", "hy")),
 }
+ALL_COMPONENTS = ("ex", "ey", "ez", "hx", "hy", "hz")
+"""Saved at kz not 0, where the two 2-D polarisations couple."""
 _MEEP_COMPONENT = {"ex": mp.Ex, "ey": mp.Ey, "ez": mp.Ez, "hx": mp.Hx, "hy": mp.Hy, "hz": mp.Hz}
 
 MAX_RUN_CROSSINGS = 60
@@ -52,8 +63,11 @@ def monitor_lines(layout, x0):
     }
 
 
-def build_simulation(case, layout, orientation, x0, symmetric):
-    """A ready-to-run ``mp.Simulation`` of one job (no monitors yet)."""
+def build_simulation(case, layout, orientation, x0, symmetric, kz=None):
+    """A ready-to-run ``mp.Simulation`` of one job (no monitors yet).
+
+    ``kz``: out-of-plane wavenumber in Meep's units (cycles per µm, kz / 2 pi), or None for a line source.
+    """
     chip = mp.Medium(index=case.chip.index,
                      D_conductivity=d_conductivity(case.chip.alpha_per_um, case.chip.index))
     geometry = [mp.Prism(vertices=[mp.Vector3(x, y) for x, y in layout.chip_polygon],
@@ -82,7 +96,9 @@ def build_simulation(case, layout, orientation, x0, symmetric):
     symmetries = []
     if symmetric:
         symmetries = [mp.Mirror(mp.X, phase=-1 if component == mp.Ex else 1)]
+    bloch = {} if not kz else {"k_point": mp.Vector3(0, 0, kz), "ensure_periodicity": False}
     return mp.Simulation(
+        **bloch,
         cell_size=mp.Vector3(layout.cell_x, layout.cell_y),
         geometry_center=mp.Vector3(0, layout.y_center),
         resolution=layout.resolution,
@@ -113,8 +129,24 @@ def _field_map_region(layout):
     return mp.Vector3(0, (top + bottom) / 2), mp.Vector3(2 * layout.x_side, top - bottom)
 
 
-def run_job(case, layout, orientation, x0, symmetric, field_map=False):
+def _check_epsilon(sim, case, layout, x0):
+    """The chip below the emitter and the ambient above the top monitor are where they belong.
+
+    Guards the periodicity trap described in the module docstring (an object filling the cell).
+    """
+    for (x, y), index, what in (((x0, -layout.depth), case.chip.index, "chip"),
+                                ((0.0, layout.y_top), case.ambient.index, "ambient")):
+        eps = sim.get_epsilon_point(mp.Vector3(x, y))
+        if abs(eps - index ** 2) > 1e-6 * index ** 2:
+            raise RuntimeError(f"the {what} at ({x:g}, {y:g}) has epsilon {eps:g}, not {index ** 2:g}: "
+                               "the geometry was not built as laid out")
+
+
+def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, wavelength=None):
     """Run one job and return its raw results.
+
+    For a node of a point source, ``kz`` (cycles per µm) and ``wavelength``
+    (µm): the fields at that one wavelength only, all six components saved.
 
     Returns
     -------
@@ -132,9 +164,14 @@ def run_job(case, layout, orientation, x0, symmetric, field_map=False):
     """
     mp.verbosity(0)
     started = time.perf_counter()
-    sim = build_simulation(case, layout, orientation, x0, symmetric)
-    freqs = list(1.0 / layout.wavelengths)
-    saved = COMPONENTS[orientation][1]
+    sim = build_simulation(case, layout, orientation, x0, symmetric, kz=kz)
+    freqs, saved = list(1.0 / layout.wavelengths), COMPONENTS[orientation][1]
+    if kz is not None:
+        freqs = [1.0 / wavelength]
+    if kz:  # at kz = 0 the run is the line source's, with one polarisation
+        sim.init_sim()
+        _check_epsilon(sim, case, layout, x0)
+        saved = ALL_COMPONENTS
     lines = monitor_lines(layout, x0)
     dft, flux = {}, {}
     for name, (start, end, normal) in lines.items():

@@ -13,15 +13,28 @@ from concurrent.futures import ProcessPoolExecutor, as_completed
 
 from tqdm import tqdm
 
+from . import kz
 
-def plan_jobs(case, layout):
+
+def plan_jobs(case, layout, guided=None):
     """The jobs of a case: one per orientation and lateral position.
 
     Mirror symmetry about x = 0 is used when the pattern is symmetric and the
-    emitter sits on the mirror plane (x = 0).
+    emitter sits on the mirror plane (x = 0). A point source has one job per
+    orientation, position, wavelength and node of the kz integral
+    (:mod:`fdtd_cases.kz`), carrying ``wavelength``, ``kz`` (in units of k0)
+    and ``kz_weight``; ``guided`` maps a wavelength's index to the effective
+    indices of the flat stack's guided modes there (breakpoints of the integral).
     """
-    return [{"orientation": orientation, "x": float(x), "symmetric": bool(layout.symmetric and x == 0.0)}
+    jobs = [{"orientation": orientation, "x": float(x), "symmetric": bool(layout.symmetric and x == 0.0)}
             for orientation in case.emitter.orientations() for x in case.emitter.x]
+    if case.emitter.source == "line":
+        return jobs
+    nodes = []
+    for i, wavelength in enumerate(layout.wavelengths):
+        u, w = kz.case_rule(case, wavelength, (guided or {}).get(i, ()))
+        nodes += [{"wavelength": float(wavelength), "kz": float(a), "kz_weight": float(b)} for a, b in zip(u, w)]
+    return [{**job, **node} for job in jobs for node in nodes]
 
 
 def _quiet_worker():
@@ -34,6 +47,9 @@ def _quiet_worker():
 
 def _run_one(case, layout, job, field_map=False):
     from .meep_job import run_job
+    if "kz" in job:  # a node of a point source: Meep takes kz in cycles per µm
+        return run_job(case, layout, job["orientation"], job["x"], job["symmetric"], field_map=field_map,
+                       kz=job["kz"] / job["wavelength"], wavelength=job["wavelength"])
     return run_job(case, layout, job["orientation"], job["x"], job["symmetric"], field_map=field_map)
 
 
@@ -53,14 +69,13 @@ def run_jobs(case, layout, jobs, workers=None, progress=True, field_map=False):
 
 
 def run_cases(cases, workers=None, progress=True):
-    """Run every job of several (case, layout) pairs in one pool.
+    """Run every job of several (case, layout, jobs) triples in one pool.
 
-    Returns, for each pair in order, its jobs merged with their raw results
+    Returns, for each triple in order, its jobs merged with their raw results
     (the input of :func:`postprocess.analysis.analyse`).
     """
-    planned = [plan_jobs(case, layout) for case, layout in cases]
-    raw = run_many([(case, layout, job) for (case, layout), jobs in zip(cases, planned) for job in jobs],
-                   workers, progress)
+    planned = [jobs for _, _, jobs in cases]
+    raw = run_many([(case, layout, job) for case, layout, jobs in cases for job in jobs], workers, progress)
     merged, at = [], 0
     for jobs in planned:
         merged.append([{**job, **result} for job, result in zip(jobs, raw[at:at + len(jobs)])])

@@ -25,10 +25,11 @@ from fdtd_cases.case_file import load_case as _read_case_file
 from fdtd_cases.case_file import parse_case, resolved_dict
 from fdtd_cases.errors import CaseError
 from fdtd_cases.layout import make_layout
-from fdtd_cases.runner import plan_jobs, run_jobs
+from fdtd_cases.runner import run_jobs
 from postprocess import analysis, farfield
 from postprocess.results import read_results, write_results
 
+from .jobs import jobs_of
 from .summary import summarise
 from .version import __version__
 
@@ -109,6 +110,8 @@ def with_na(case, na):
     """The case with a collection cone of numerical aperture ``na`` (None: as it is)."""
     if na is None:
         return case
+    if case.emitter.source == "point":
+        raise CaseError.not_for_point_sources(case._origin[0], "a collection cone (--na)")
     if na > case.ambient.index:
         raise CaseError("command line", "--na", f"is {na:g}, more than the ambient index {case.ambient.index:g} "
                         "(na = n_ambient sin(half-angle))")
@@ -124,7 +127,7 @@ def check(case):
     """Validate a case with its grid; the derived facts and estimates as a dict (``outcouple check``)."""
     case = load_case(case)
     layout = layout_of(case)
-    jobs = plan_jobs(case, layout)
+    jobs = jobs_of(case, layout)
     est = layout.estimate(case.chip.index)
     workers = max(1, min(os.cpu_count() or 1, len(jobs)))
     facts = {name: getattr(layout, name) for name in ("resolution", "cell_x", "cell_y", "pml", "grid_points",
@@ -161,7 +164,7 @@ def run(case, workers=None, fields=False, progress=True, output=None, na=None):
     layout = layout_of(case)
     if output is not None and not Path(output).parent.is_dir():
         raise CaseError("command line", "-o", f"the folder of {output} does not exist")
-    jobs = plan_jobs(case, layout)
+    jobs = jobs_of(case, layout)
     started = time.perf_counter()
     raw = run_jobs(case, layout, jobs, workers=workers, progress=progress, field_map=fields)
     summary = summarise(case, [{**job, **result} for job, result in zip(jobs, raw)], layout.wavelengths,
@@ -244,7 +247,10 @@ def report(source, output=None, na=None):
         out = Path(output) if output else source / "report.html"
     else:
         data = read_results(source)
-        case = with_na(stored_case(data, source), na)
+        case = stored_case(data, source)
+        if case.emitter.source == "point":
+            raise CaseError.not_for_point_sources(source, "the HTML report (the far field over the hemisphere)")
+        case = with_na(case, na)
         layout = make_layout(case, source=f"{source}:/case/resolved")
         grid = data["grid"]
         summary = summarise(case, data["jobs"], grid["wavelengths"], grid["resolution"])

@@ -21,11 +21,12 @@ import numpy as np
 from fdtd_cases.case_file import load_case, parse_case
 from fdtd_cases.errors import CaseError
 from fdtd_cases.layout import make_layout
-from fdtd_cases.runner import plan_jobs, run_cases
+from fdtd_cases.runner import run_cases
 from postprocess.files import atomic_write
 from postprocess.plots import plot_comparison
 from references import raytrace
 
+from .jobs import jobs_of
 from .summary import summarise
 
 
@@ -70,13 +71,15 @@ def prepare(data, source, key, values):
     points = []
     for value in values:
         case = case_with(data, key, value, source)
+        if case.emitter.source == "point":
+            raise CaseError.not_for_point_sources(source, "compare (ray tracing of 3-D directions)")
         points.append((float(value), case, make_layout(case, source=f"{source} (with {key} = {value:g})")))
     return points
 
 
 def run(points, key, tolerance, rays, workers, progress):
     """FDTD and rays for every point; rows of the comparison table."""
-    runs = run_cases([(case, layout) for _, case, layout in points], workers, progress)
+    runs = run_cases([(case, layout, jobs_of(case, layout)) for _, case, layout in points], workers, progress)
     rows = []
     for (value, case, layout), merged in zip(points, runs):
         wave = summarise(case, merged, layout.wavelengths, layout.resolution)
@@ -122,7 +125,7 @@ def compare(case_file, vary, tolerance=0.05, rays=20000, output=None, workers=No
     points = prepare(tomllib.loads(text), case_file, key, values)
     out_dir = Path(output) if output else Path(Path(case_file).stem + "_compare")
     if progress:
-        jobs = sum(len(plan_jobs(c, lay)) for _, c, lay in points)
+        jobs = sum(len(jobs_of(c, lay)) for _, c, lay in points)
         print(f"comparing {len(points)} values of {key}: {jobs} FDTD job(s), then rays", file=sys.stderr)
     rows = run(points, key, tolerance, rays, workers, progress)
     csv_path, png_path = write_outputs(rows, key, out_dir, f"{Path(case_file).name}: {key}")

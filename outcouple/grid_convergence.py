@@ -13,6 +13,7 @@ from fdtd_cases.layout import MIN_PPW_ERROR, make_layout
 from fdtd_cases.runner import run_cases
 from postprocess.convergence import extrapolate
 
+from .jobs import jobs_of
 from .summary import summarise
 
 DEFAULT_FACTORS = (0.8, 1.0, 1.25)
@@ -45,7 +46,7 @@ def levels(case, source, resolutions=None):
 def run(case, source, resolutions=None, tolerance=0.02, workers=None, progress=True):
     """Efficiency at each level, the extrapolated value and the verdict, JSON-ready (``outcouple converge``)."""
     own, points = levels(case, source, resolutions)
-    runs = run_cases([(c, lay) for _, c, lay in points], workers, progress)
+    runs = run_cases([(c, lay, jobs_of(c, lay)) for _, c, lay in points], workers, progress)
     rows = []
     for (resolution, c, lay), merged in zip(points, runs):
         summary = summarise(c, merged, lay.wavelengths, lay.resolution)

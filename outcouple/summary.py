@@ -3,8 +3,11 @@
 ``run``, ``show``, sweep ``collect``, ``compare``, ``converge`` and ``report``
 all call :func:`summarise`, so every command prints the same numbers for the
 same saved fields: the FDTD numbers (:func:`postprocess.analysis.analyse`),
-for flat cases the exact planar reference beside them, and the power inside
-the case's collection cone.
+for flat cases the exact planar reference beside them (of the line emitter or
+the point dipole the run simulated), for line sources the exact efficiency of
+a point dipole under the same stack with a flat surface (the 3-D baseline no
+2-D number should be read without), and the power inside the case's
+collection cone.
 """
 
 from postprocess import analysis, farfield
@@ -12,7 +15,11 @@ from references import reference
 
 
 def exact_reference(case):
-    """Exact planar result of the case's line emitter, combined like the FDTD jobs (flat cases)."""
+    """Exact planar result of the case's emitters, combined like the FDTD jobs (flat cases)."""
+    if case.emitter.source == "point":
+        result = reference.planar(case, dim=3)
+        result["method"] = "exact plane-wave (angular-spectrum) expansion of the point dipole in the flat stack"
+        return result
     result = reference.planar(case, dim=2, angles=farfield.ANGLES)
     result["method"] = "exact plane-wave (angular-spectrum) expansion in the flat stack"
     return result
@@ -34,12 +41,17 @@ def summarise(case, jobs, wavelengths, resolution):
     summary = analysis.analyse(case, jobs, wavelengths, resolution)
     if case.surface.pattern == "flat":  # the exact planar solver covers every flat case
         summary["reference"] = exact_reference(case)
+    if case.emitter.source == "line":
+        summary["point_dipole_baseline"] = flat_baseline(case, dim=3)
     if case.collection is not None:
         summary.update(analysis.collection_summary(case, summary))
     return summary
 
 
-def flat_baseline(case):
-    """Exact planar efficiency of the case's stack with a flat surface (what a pattern must beat)."""
+def flat_baseline(case, dim=2):
+    """Exact planar efficiency of the case's stack with a flat surface (what a pattern must beat).
+
+    ``dim`` 2: the line emitter; 3: the point dipole of the same orientations.
+    """
     flat = case.model_copy(update={"surface": type(case).model_fields["surface"].default})
-    return reference.planar(flat)["efficiency"]
+    return reference.planar(flat, dim=dim)["efficiency"]

@@ -110,6 +110,8 @@ def plan(data, source):
             point = with_value(point, key, value, f"{source}: [sweep]")
         where = f"{source} (at {_label(values)})"
         case = parse_case(point, source=where)
+        if case.emitter.source == "point":
+            raise CaseError.not_for_point_sources(source, "a sweep")
         layout = make_layout(case, source=where)
         resolved = tomli_w.dumps(resolved_dict(case))
         jobs = [{**job, "id": job_id(resolved, job["orientation"], job["x"])} for job in plan_jobs(case, layout)]

@@ -9,7 +9,7 @@ them) is assembled in one place, :func:`outcouple.summary.summarise`.
 import numpy as np
 
 from . import farfield
-from .budget import bulk_power, job_fluxes, summarise
+from .budget import bulk_power, job_fluxes, point_sources, summarise
 
 
 def analyse(case, jobs, wavelengths, resolution):
@@ -19,12 +19,15 @@ def analyse(case, jobs, wavelengths, resolution):
     ----------
     case : fdtd_cases.case.Case
     jobs : list of dict
-        Each with ``orientation``, ``x``, ``lines`` and ``source_current``.
+        Each with ``orientation``, ``x``, ``lines`` and ``source_current``
+        (and for a point source ``wavelength``, ``kz``, ``kz_weight``).
     wavelengths : array
         Sampled vacuum wavelengths, µm.
     resolution : float
         Grid points per µm.
     """
+    if case.emitter.source == "point":
+        return _analyse_point(case, jobs, wavelengths, resolution)
     combined = [{"orientation": job["orientation"], "x": job["x"],
                  "fluxes": job_fluxes(job["lines"], resolution),
                  "bulk": bulk_power(job["orientation"], wavelengths, job["source_current"])} for job in jobs]
@@ -34,6 +37,24 @@ def analyse(case, jobs, wavelengths, resolution):
             if key in job:
                 entry[key] = job[key]
     summary.update(far_field(case, jobs, combined, wavelengths, resolution))
+    return summary
+
+
+def _analyse_point(case, jobs, wavelengths, resolution):
+    """The numbers of a point-source run: its dipoles integrated over kz, combined like line jobs.
+
+    The far field of a point dipole covers the hemisphere (kx and kz) and is
+    not computed yet: ``farfield`` is None.
+    """
+    dipoles = point_sources(jobs, wavelengths, resolution, case.chip.index)
+    summary = summarise(dipoles, wavelengths, lossless=case.chip.alpha == 0)
+    for entry, dipole in zip(summary["jobs"], dipoles):
+        nodes = dipole["nodes"]
+        entry.update({"kz_runs": len(nodes), "time_steps": sum(int(n.get("time_steps", 0)) for n in nodes),
+                      "wall_time": sum(float(n.get("wall_time", 0.0)) for n in nodes),
+                      "stopped_by_decay": all(bool(n.get("stopped_by_decay", True)) for n in nodes)})
+    summary.update({"source": "point", "kz_nodes": len(dipoles[0]["nodes"]) // len(wavelengths),
+                    "farfield": None, "farfield_closure": None})
     return summary
 
 

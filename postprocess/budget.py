@@ -22,6 +22,19 @@ G = (i/4) H0(k r), Im G_zz(0) = 1/4 and Im G_xx(0) = 1/8 (the in-plane
 projection averages cos^2 over the circle), doubled for Meep's flux
 convention; both independent of the medium's index in 2-D. A test checks
 these against a bulk Meep run.
+
+A 3-D point dipole of current moment I (current times length) in a
+homogeneous medium of index n radiates, in the same units,
+
+    P0 = n omega^2 |I|^2 / (6 pi)
+
+(the textbook dipole power omega^4 n |p|^2 / (12 pi epsilon0 c^3) with
+I = -i omega p, doubled for Meep's flux convention; Jackson, Classical
+Electrodynamics, eq. 9.24, with the medium's index), whatever the dipole's
+direction. Its fluxes are the kz integrals of the 2-D runs' fluxes
+(:mod:`fdtd_cases.kz`): P_3D = (k0 / pi) sum_j w_j P_2D(u_j), each run's
+fluxes taken per |I|^2 of its own source (all runs share one source pulse).
+A test checks the integral of bulk runs against P0.
 """
 
 import numpy as np
@@ -36,6 +49,36 @@ def bulk_power(orientation, wavelengths, source_current):
     """Power the job's emitter would radiate in bulk material, per wavelength (Meep units)."""
     omega = 2 * np.pi / np.asarray(wavelengths)
     return BULK_FACTOR[orientation] * omega * np.abs(np.asarray(source_current)) ** 2
+
+
+def bulk_power_3d(index, wavelengths, source_current):
+    """Power a point dipole would radiate in bulk material of ``index``, per wavelength (Meep units)."""
+    omega = 2 * np.pi / np.asarray(wavelengths)
+    return index * omega ** 2 * np.abs(np.asarray(source_current)) ** 2 / (6 * np.pi)
+
+
+def point_sources(jobs, wavelengths, resolution, index):
+    """The point dipoles of a point-source run, one per orientation and position, from its kz nodes.
+
+    Each job is one node (``wavelength``, ``kz``, ``kz_weight``, its lines at
+    that wavelength); the result has the shape :func:`summarise` takes:
+    ``orientation``, ``x``, ``fluxes`` (per wavelength) and ``bulk``, all per
+    |I|^2, plus ``nodes`` (the jobs of each dipole, for run facts).
+    """
+    wavelengths = np.asarray(wavelengths, dtype=float)
+    dipoles = {}
+    for job in jobs:
+        i = int(np.argmin(np.abs(wavelengths - job["wavelength"])))
+        k0 = 2 * np.pi / wavelengths[i]
+        scale = job["kz_weight"] * k0 / np.pi / np.abs(np.asarray(job["source_current"])[0]) ** 2
+        entry = dipoles.setdefault((job["orientation"], job["x"]), {
+            "orientation": job["orientation"], "x": job["x"], "nodes": [],
+            "fluxes": {k: np.zeros(len(wavelengths)) for k in ("top", "bottom", "sides", "emitted")},
+            "bulk": bulk_power_3d(index, wavelengths, np.ones(len(wavelengths)))})
+        for key, value in job_fluxes(job["lines"], resolution).items():
+            entry["fluxes"][key][i] += scale * value[0]
+        entry["nodes"].append(job)
+    return list(dipoles.values())
 
 
 def job_fluxes(lines, resolution):

@@ -20,6 +20,9 @@ def format_report(summary, title):
     """Plain-text tables of a summary."""
     ref = summary.get("reference")
     out = [title, ""]
+    if summary.get("source") == "point":
+        out += [f"  3-D point dipole(s): each the integral of {summary['kz_nodes']} 2-D runs over the out-of-plane "
+                "wavenumber, per orientation, position and wavelength", ""]
     head = f"  {'wavelength/um':>13}  {'efficiency':>10}"
     if ref:
         head += f"  {'exact':>8}  {'diff':>8}"
@@ -51,7 +54,11 @@ def format_report(summary, title):
                    f"{summary['balance_error']:.4f}")
     out.append(f"  emission factor (emitted / bulk power, mean) {summary['emission_factor']:.4f}"
                + (f"   exact {ref['emission_factor']:.4f}" if ref else ""))
-    out += _farfield_lines(summary)
+    if summary.get("point_dipole_baseline") is not None:
+        out.append(f"  3-D context: a point dipole under the same stack with a flat surface (exact) escapes "
+                   f"{summary['point_dipole_baseline']:.4f}; these 2-D numbers are a line emitter's")
+    if summary["farfield"] is not None:
+        out += _farfield_lines(summary)
     unstopped = [j for j in summary["jobs"] if j.get("stopped_by_decay") is False]
     if unstopped:
         out.append(f"  WARNING: {len(unstopped)} job(s) hit the run-time limit before the fields decayed; "

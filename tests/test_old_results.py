@@ -25,8 +25,9 @@ def _flatten(value, prefix=""):
 
 
 def _same(ours, then):
+    """Every number ``then`` had, ``ours`` has (ours may carry more keys, added since)."""
     ours, then = _flatten(ours), _flatten(then)
-    assert ours.keys() == then.keys(), f"keys differ: {sorted(set(ours) ^ set(then))}"
+    assert then.keys() <= ours.keys(), f"keys lost: {sorted(set(then) - set(ours))}"
     for key, value in then.items():
         if isinstance(value, float):
             assert ours[key] == pytest.approx(value, rel=1e-9, abs=1e-15), f"{key}: ours {ours[key]!r} vs then {value!r}"
