@@ -136,6 +136,7 @@ def check(case):
         "case_file": _source(case), "wavelengths": [float(w) for w in layout.wavelengths],
         "points_per_wavelength": dict(layout.points_per_wavelength), "jobs": len(jobs),
         "orientations": list(case.emitter.orientations()), "positions": len(case.emitter.x),
+        "source": case.emitter.source,
         "estimate": est, "workers": workers, "seconds_in_all": est["seconds"] * len(jobs) / workers,
         "collection_half_angle": case.collection.degrees(case.ambient.index) if case.collection else None,
         "warnings": list(layout.warnings),

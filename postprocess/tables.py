@@ -105,6 +105,15 @@ def _human_bytes(n):
     return f"{n / 2**20:.0f} MiB" if n < 2**30 else f"{n / 2**30:.1f} GiB"
 
 
+def _kz_runs(facts):
+    if facts.get("source") != "point":
+        return ""
+    dipoles = len(facts["orientations"]) * facts["positions"]
+    return (f" x {len(facts['wavelengths'])} wavelength(s), point dipoles: about "
+            f"{facts['jobs'] / (dipoles * len(facts['wavelengths'])):.0f} kz runs each, the slowest several times "
+            "the estimate")
+
+
 def format_check(facts):
     """``outcouple check``: the validated case's grid, jobs and estimates."""
     ppw, lam = facts["points_per_wavelength"], facts["wavelengths"]
@@ -118,7 +127,7 @@ def format_check(facts):
            f"  monitors           top y = {facts['y_top']:.3f} um, bottom y = {facts['y_bottom']:.3f} um, "
            f"sides x = +/-{facts['x_side']:.3f} um, emitter contour half-width {facts['contour']:.3f} um",
            f"  jobs               {facts['jobs']} ({', '.join(facts['orientations'])} x {facts['positions']} "
-           f"position(s)); mirror symmetry: {'yes (x = 0 jobs)' if facts['symmetric'] else 'no'}",
+           f"position(s){_kz_runs(facts)}); mirror symmetry: {'yes (x = 0 jobs)' if facts['symmetric'] else 'no'}",
            f"  estimate per job   about {est['time_steps']:,} time steps, {est['seconds']:.0f} s "
            f"(without symmetry), {_human_bytes(est['memory_bytes'])}",
            f"  estimate in all    about {facts['seconds_in_all']:.0f} s on {facts['workers']} worker(s)"]

@@ -112,8 +112,11 @@ def run_case(data, workers=2):
     return outcouple.run(data, workers=workers, progress=False).to_dict()
 
 
-def run_in_process(data, orientation, x=0.0, symmetric=True):
-    """Validate a case dict, run one job in this process and return (case, layout, raw result, fluxes)."""
+def run_in_process(data, orientation, x=0.0, symmetric=True, kz=None, wavelength=None):
+    """Validate a case dict, run one job in this process and return (case, layout, raw result, fluxes).
+
+    ``kz`` (in units of k0 = 2 pi / ``wavelength``): one node of a point source, at that wavelength.
+    """
     from fdtd_cases.case_file import parse_case
     from fdtd_cases.layout import make_layout
     from fdtd_cases.meep_job import run_job
@@ -121,5 +124,6 @@ def run_in_process(data, orientation, x=0.0, symmetric=True):
 
     case = parse_case(data)
     layout = make_layout(case)
-    raw = run_job(case, layout, orientation, x, symmetric and layout.symmetric)
+    bloch = {} if kz is None else {"kz": kz / wavelength, "wavelength": wavelength}
+    raw = run_job(case, layout, orientation, x, symmetric and layout.symmetric, **bloch)
     return case, layout, raw, job_fluxes(raw["lines"], layout.resolution)

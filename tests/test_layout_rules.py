@@ -6,7 +6,6 @@ shared surface polyline from fdtd_cases. Only fdtd_cases/meep_job.py imports Mee
 """
 
 import ast
-from pathlib import Path
 
 import pytest
 

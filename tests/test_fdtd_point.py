@@ -1,0 +1,87 @@
+"""Point sources (3-D dipoles as kz integrals of 2-D Meep runs) against outside references.
+
+The exact planar solver (references.multilayer) gives the 3-D dipole under a flat surface; it is
+checked against the Novotny-Hecht integral and energy conservation in test_multilayer.py. The
+bulk power of a dipole is the textbook n w^2 |I|^2 / 6 pi (postprocess/budget.py; Jackson 9.24).
+Small domains and coarse grids keep these to a minute: the default grid's figures come from
+bench/validate_point.py and are quoted in the README.
+"""
+
+import pytest
+
+from conftest import make_case, requires_meep, run_case
+
+pytestmark = [requires_meep, pytest.mark.fdtd]
+
+
+@pytest.fixture(scope="module")
+def flat_point():
+    """A flat n = 2 half-space, isotropic point dipole 0.25 um deep, 16 points per chip wavelength (the default)."""
+    data = make_case(emitter={"depth": 0.25, "orientation": "isotropic", "source": "point"})
+    return run_case(data)
+
+
+def test_flat_half_space_against_the_exact_3d_dipole(flat_point):
+    ours, exact = flat_point, flat_point["reference"]
+    assert ours["source"] == "point" and ours["kz_nodes"] >= 8
+    assert exact["method"].startswith("exact") and "point dipole" in exact["method"]
+    for name, value in ours["by_orientation"].items():
+        ref = exact["by_orientation"][name]
+        assert value == pytest.approx(ref, rel=0.03), f"{name}: FDTD {value:.5f} vs exact {ref:.5f}"
+    assert ours["efficiency"] == pytest.approx(exact["efficiency"], rel=0.02), (
+        f"combined: FDTD {ours['efficiency']:.5f} vs exact {exact['efficiency']:.5f}")
+    assert ours["emission_factor"] == pytest.approx(exact["emission_factor"], rel=0.02)
+    assert ours["balance_error"] < 0.01
+
+
+def test_rotational_symmetry_of_a_flat_surface(flat_point):
+    """Under a flat surface a dipole along x and one along z are the same dipole turned about the normal."""
+    exact = flat_point["reference"]["by_orientation"]
+    assert exact["parallel"] == pytest.approx(exact["out-of-plane"], rel=1e-9)
+    ours = flat_point["by_orientation"]
+    assert ours["parallel"] == pytest.approx(ours["out-of-plane"], rel=0.02)
+
+
+@pytest.mark.parametrize("orientation", ["parallel", "normal", "out-of-plane"])
+def test_single_kz_runs_against_the_exact_spectrum(orientation):
+    """One escaping and one trapped out-of-plane wavenumber, each a single 2-D Meep run, against the
+    exact 2-D power of that wavenumber (references.kz_spectrum; it integrates to the exact 3-D dipole,
+    test_kz.py), as fractions of the 3-D bulk power n w^2 |I|^2 / 6 pi."""
+    import numpy as np
+
+    from conftest import run_in_process
+    from postprocess.budget import bulk_power_3d
+    from references import multilayer as ml
+    from references.kz_spectrum import spectrum
+
+    data = make_case(emitter={"depth": 0.25}, grid={"points_per_wavelength": 16})
+    stack = ml.Stack(1.0, (), complex(2.0), np.inf)
+    for u in (0.5, 1.5):
+        case, layout, raw, fluxes = run_in_process(data, orientation, kz=u, wavelength=1.0)
+        p0 = bulk_power_3d(2.0, [1.0], raw["source_current"])[0]
+        exact = spectrum(stack, 0.25, 1.0, orientation, u)
+        ours = {key: fluxes[key][0] / p0 for key in ("emitted", "top")}
+        assert ours["emitted"] == pytest.approx(exact["emitted"], rel=0.02), (
+            f"u = {u}: emitted {ours['emitted']:.5f} vs exact {exact['emitted']:.5f}")
+        if u < 1:
+            assert ours["top"] == pytest.approx(exact["top"], rel=0.03), (
+                f"u = {u}: top {ours['top']:.5f} vs exact {exact['top']:.5f}")
+        else:
+            assert abs(ours["top"]) < 1e-3 * ours["emitted"], "light escaped beyond the ambient's light line"
+
+
+def test_a_vanishing_kz_gives_the_line_run():
+    """kz -> 0 through the Bloch machinery (k_point set, all six components, complex fields, objects
+    not copied) reproduces the line source's run of the same case."""
+    from conftest import run_in_process
+
+    data = make_case(chip={"index": 2.0, "thickness": 1.2, "back": "substrate", "back_index": 1.5},
+                     surface={"pattern": "grating", "period": 0.6, "height": 0.2, "fill": 0.5},
+                     emitter={"depth": 0.5}, grid={"points_per_wavelength": 10})
+    for orientation in ("parallel", "out-of-plane"):
+        case, layout, line, fluxes = run_in_process(data, orientation)
+        _, _, node, kz_fluxes = run_in_process(data, orientation, kz=1e-7, wavelength=1.0)
+        assert set(node["lines"]["top"]["fields"]) == {"ex", "ey", "ez", "hx", "hy", "hz"}
+        scale = abs(node["source_current"][0]) ** 2 / abs(line["source_current"][0]) ** 2
+        for key in ("top", "bottom", "sides", "emitted"):
+            assert kz_fluxes[key][0] == pytest.approx(fluxes[key][0] * scale, rel=1e-4, abs=1e-9), key
