@@ -85,3 +85,17 @@ def test_a_vanishing_kz_gives_the_line_run():
         scale = abs(node["source_current"][0]) ** 2 / abs(line["source_current"][0]) ** 2
         for key in ("top", "bottom", "sides", "emitted"):
             assert kz_fluxes[key][0] == pytest.approx(fluxes[key][0] * scale, rel=1e-4, abs=1e-9), key
+
+
+def test_a_band_equals_single_wavelength_runs():
+    """The kz nodes are placed anew for every sampled wavelength (the breakpoints move with k0), so a
+    band's spectrum equals point runs at each of its wavelengths alone (same grid, same domain)."""
+    grid = {"resolution": 24.0, "width": 5.0, "pml": 1.0}
+    emitter = {"depth": 0.3, "orientation": "out-of-plane", "source": "point"}
+    band = run_case(make_case(light={"wavelength": 1.0, "band": 0.2, "samples": 2}, chip={"index": 1.8},
+                              emitter=emitter, grid=grid))
+    assert band["wavelengths"] == pytest.approx([0.9, 1.1])
+    for wavelength, value in zip(band["wavelengths"], band["efficiency_spectrum"]):
+        alone = run_case(make_case(light={"wavelength": wavelength}, chip={"index": 1.8}, emitter=emitter, grid=grid))
+        assert value == pytest.approx(alone["efficiency"], rel=0.01), f"at {wavelength} um"
+        assert value == pytest.approx(alone["reference"]["efficiency"], rel=0.03), f"at {wavelength} um, exact"
