@@ -194,6 +194,10 @@ def _efficiency(summary, bounds):
             ["an ideal randomising top over this chip and back", _f(bounds["randomising_bound"]["line_emitter"])],
             ["escape cone with Fresnel losses, thick chip", _f(bounds["escape_cone"]["line_emitter"]["with_fresnel"])],
         ])
+    if summary.get("point_dipole_baseline") is not None:
+        body += (f'<p class="warn">3-D context: these are a line emitter\'s numbers. Point dipoles of the same '
+                 f"orientations under the same stack with a flat surface escape "
+                 f"{_f(summary['point_dipole_baseline'])} (exact); a die emits from point dipoles.</p>")
     return body
 
 

@@ -88,3 +88,20 @@ def test_collected_fraction_rays_against_exact():
     share = quad(math.cos, -half, half)[0] / quad(math.cos, -math.pi / 2, math.pi / 2)[0]
     assert exact["collection"]["lambertian"] == pytest.approx(exact["efficiency"] * share, rel=1e-9), \
         f"Lambertian in the fan {exact['collection']['lambertian']:.6f} vs quadrature {exact['efficiency'] * share:.6f}"
+
+
+def test_line_runs_carry_the_point_dipole_baseline_of_reference(tmp_path):
+    """The 3-D context a line run prints is the point dipole `reference` reports for the flat stack
+    (exact solver, checked against the Novotny-Hecht integral in test_multilayer.py); for a deep
+    emitter it approaches the 3-D escape cone with Fresnel losses (closed form, incoherent limit)."""
+    import outcouple
+    from conftest import make_case
+    from outcouple.summary import flat_baseline
+
+    case = outcouple.load_case(make_case(chip={"index": 2.4}, emitter={"depth": 6.0},
+                                         surface={"pattern": "grating", "period": 0.5, "height": 0.2}))
+    baseline = flat_baseline(case, dim=3)
+    flat = outcouple.reference(make_case(chip={"index": 2.4}, emitter={"depth": 6.0}))
+    assert baseline == pytest.approx(flat["point_dipole"]["efficiency"], rel=1e-12)
+    cone = flat["escape_cone"]["point_dipole"]["with_fresnel"]
+    assert baseline == pytest.approx(cone, rel=0.03), f"deep emitter: {baseline:.5f} vs escape cone {cone:.5f}"

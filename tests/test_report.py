@@ -58,7 +58,7 @@ def test_report_is_self_contained_with_the_numbers(result_report):
         assert base64.b64decode(data)[:8] == b"\x89PNG\r\n\x1a\n"
     # The numbers are those of `outcouple run` on the same file (the same analysis, re-run).
     for value in (summary["efficiency"], summary["reference"]["efficiency"], summary["collected"],
-                  summary["collection"]["exact"], *summary["by_orientation"].values()):
+                  summary["collection"]["exact"], summary["point_dipole_baseline"], *summary["by_orientation"].values()):
         assert f"{value:.4f}" in text
     for words in ("IEC 62471", "points per wavelength", "far-field closure", "collected within NA 0.500"):
         assert words in text
