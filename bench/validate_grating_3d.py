@@ -20,52 +20,54 @@ It also prints both emitted powers divided by the bulk power n w^2 |I|^2 / (6 pi
 (postprocess/budget.py; |I| from Meep's ldos_Jdata) and the exact flat-surface value
 (``outcouple.reference``) for context, and reruns one orientation with a longer z extent.
 
-Run (about 2.5 minutes at the default resolution, on one core shared with another Meep job):
+Run (about 2.5 minutes at the default resolution 20, on one core shared with another Meep job;
+resolution 30 takes about 2, 2 and 3 minutes for the three orientations):
 
     .venv/bin/python bench/validate_grating_3d.py
-    .venv/bin/python bench/validate_grating_3d.py --resolution 30 --orientations normal
+    .venv/bin/python bench/validate_grating_3d.py --resolution 30 --orientations normal --check-z-half 0
 
 Out-of-plane (z) dipole: Ez lives half a cell off z = 0 on Meep's Yee grid, so a 3-D source at
 z = 0 is spread over the two nearest Ez points, a dipole one cell long whose kz spectrum falls
-as cos(kz dz / 2), 0.95 in amplitude at kz = 2 k0 here; the kz runs have no such factor (their z
-is exact). The script therefore puts that source on an Ez point, z = dz / 2, and runs it with
-the x mirror only. Centred at z = 0 (``--ez-at-zero``) it read 0.12796 at Z_HALF = 4 (emitted
-0.992 of bulk), 2.2% above the package instead of 0.9%.
+as cos(kz dz / 2) (0.95 in amplitude at kz = 2 k0 here); the kz runs have no such factor (z is
+exact there). The script therefore puts that source on an Ez point, z = dz / 2, and runs it with
+the x mirror only. Centred at z = 0 (``--ez-at-zero``) the 3-D run gave LEE 0.12814 and emitted
+0.9923 of bulk at resolution 20, Z_HALF = 6: package -2.3% and +2.8% instead of -1.0% and +0.7%.
 
-Measured here (Meep 1.25, resolution 20, Z_HALF = 6; 3-D runs 20-40 s each, package 15-20 s per
-orientation, about 2.5 min in all):
+Output here (Meep 1.25, 2 cores shared with another Meep job; diff = package / 3-D - 1):
 
-    orientation   3-D LEE  package LEE   diff   3-D emit/P0  pkg emit/P0  flat exact
-    parallel      0.11534    0.11582    +0.41%     0.9777       0.9607      0.07773
-    normal        0.02000    0.02082    +4.09%     1.0103       0.9948      0.01203
-    out-of-plane  0.12644    0.12520    -0.98%     1.0124       1.0198      0.07773
-    (diff = package / 3-D - 1; the out-of-plane 3-D value is the Z_HALF = 4 one plus the
-    +0.15% the z extension from 4 to 6 gave with the source at z = 0)
+    resolution 20; width 4 (+ PML 1); top plane at y = 0.6; 3-D cell 6 x 3.9 x 14
+    orientation   z half  3-D LEE  pkg LEE    diff 3-D emit pkg emit    diff     flat  3-D s  pkg s kz runs
+    parallel           6  0.11534  0.11582  +0.41%   0.9777   0.9607  -1.74%  0.07773     18     22      15
+    normal             6  0.02000  0.02082  +4.09%   1.0103   0.9948  -1.53%  0.01203     15     21      15
+    out-of-plane       6  0.12647  0.12520  -1.00%   1.0124   1.0198  +0.72%  0.07773     33     18      15
+    normal             9  0.02001  0.02082  +4.06%   1.0103   0.9948  -1.53%  0.01203     21     21      15
 
-So at resolution 20 two orientations agree within 1% and the normal dipole does not: the
-package is 4.1% above the 3-D run. The cause is the 3-D reference's own grid error, not the kz
-method: the two differ only in how z is discretised (finite differences in 3-D, an exact
-Bloch phase exp(i kz z) in the kz runs, on the same x-y grid), and the normal dipole's tiny
-LEE (2%) is the most sensitive to it. With resolution (normal dipole, Z_HALF = 4 in 3-D):
+    resolution 30 (run one orientation at a time)
+    parallel           6  0.11379  0.11334  -0.39%   0.9622   0.9574  -0.50%  0.07773     60     46      15
+    normal             6  0.02055  0.02080  +1.23%   0.9978   0.9937  -0.41%  0.01203     62     50      15
+    out-of-plane       6  0.12688  0.12638  -0.39%   0.9831   0.9901  +0.71%  0.07773    131     47      15
 
-    resolution   3-D LEE   package LEE   diff
-    20           0.01991     0.02082    +4.6%
-    30           0.02045     0.02080    +1.7%
-    40           0.02075     0.02090    +0.75%
+At resolution 20 (10 points per wavelength in the chip) parallel and out-of-plane agree within
+1%, emitted powers within 2%, and the normal dipole does not: the package is 4.1% above the
+3-D run. The cause is the 3-D reference's own grid error, not the kz method. The two share the
+x-y grid and differ only in z: finite differences in 3-D, an exact Bloch phase exp(i kz z) in
+the kz runs. The normal dipole's small LEE (2%, against 1.2% under a flat surface) is the most
+sensitive. The normal 3-D LEE climbs with resolution towards the package's: 0.02000, 0.02055 at
+20, 30 (Z_HALF = 6) and 0.02075 at 40 (Z_HALF = 4, package 0.02090: +0.75%); Richardson from 20
+and 30 gives 0.0210. The package's own normal value moves by under 0.5% over 20-40 (0.02082,
+0.02080, 0.02090), and more kz nodes raise it by 0.5% (kz_nodes 8: 0.02092) and 0.7% (16:
+0.02096). At resolution 30 all three agree within 1.3%. Parallel moves by 1.5-2% in both from
+20 to 30, so the agreement there is as good as either grid allows.
 
-The 3-D value climbs towards the package's, roughly as 1 / resolution^2 (Richardson from 20
-and 40: 0.0210), while the package's moves by under 0.5%; more kz nodes raise the package's
-normal value by 0.5% (kz_nodes 8: 0.02092) and 0.7% (16: 0.02096).
-
-Other checks (resolution 20): both mirror symmetries against an unsymmetric run (resolution 16,
-width 2, depth 0.6, all three orientations): LEE and emitted power equal to 1e-7. z extent:
-parallel LEE 0.11207, 0.11510, 0.11534, 0.11538 for Z_HALF = 2, 4, 6, 8; normal 0.01867,
-0.01991, 0.02000 for 2, 4, 6; out-of-plane (source at z = 0) 0.12393, 0.12796, 0.12814 for 2,
-4, 6: at Z_HALF = 6 the finite z extent costs under 0.1% (the top plane misses light leaving
-at large |z|; the package's kz integral has no such cut), at Z_HALF = 2 (= the x half-width)
-3-7%. Stop rule: tolerance 1e-9 instead of 1e-7 changed the 3-D LEE by 4e-7. The grating's
-edges (x = +-0.2 + 0.8 k, y = -0.2) lie on grid lines at resolutions 20, 30 and 40, so the
-package's polygon (mp.Prism) and the Blocks here are averaged alike.
+Other checks. Mirror symmetries: both mirrors against an unsymmetric run (resolution 16, width
+2, depth 0.6, Z_HALF 1, all three orientations): LEE and emitted power equal to 1e-7. z extent
+(resolution 20): parallel LEE 0.11207, 0.11510, 0.11534, 0.11538 for Z_HALF = 2, 4, 6, 8; normal
+0.01867, 0.01991, 0.02000, 0.02001 for 2, 4, 6, 9; out-of-plane (source at z = 0) 0.12393,
+0.12796, 0.12814 for 2, 4, 6. At Z_HALF = 6 the finite z extent costs under 0.1% (the top plane
+misses light that leaves at large |z|; the kz integral has no such cut); at Z_HALF = 2 (the x
+half-width) it costs 3-7%. Stop rule: tolerance 1e-9 instead of 1e-6 changed the 3-D LEE by
+4e-7. The grating's edges (x = +-0.2 + 0.8 k, y = -0.2) lie on grid lines at resolutions 20,
+30 and 40, so the package's polygon (mp.Prism) and the Blocks here are averaged alike.
 """
 
 import argparse
