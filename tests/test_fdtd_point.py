@@ -99,3 +99,27 @@ def test_a_band_equals_single_wavelength_runs():
         alone = run_case(make_case(light={"wavelength": wavelength}, chip={"index": 1.8}, emitter=emitter, grid=grid))
         assert value == pytest.approx(alone["efficiency"], rel=0.01), f"at {wavelength} um"
         assert value == pytest.approx(alone["reference"]["efficiency"], rel=0.03), f"at {wavelength} um, exact"
+
+
+def test_real_imag_kz_mode_equals_complex_fields():
+    """Meep's cheaper kz_2d = "real/imag" (the default here) against full complex fields, on an absorbing
+    grating over a substrate with the mirror symmetry on, both 2-D polarisations: the same fluxes."""
+    from fdtd_cases.case_file import parse_case
+    from fdtd_cases.layout import make_layout
+    from fdtd_cases.meep_job import run_job
+    from postprocess.budget import job_fluxes
+
+    case = parse_case(make_case(chip={"index": 2.0, "alpha": 2000.0, "thickness": 1.2, "back": "substrate",
+                                      "back_index": 1.5},
+                                surface={"pattern": "grating", "period": 0.6, "height": 0.2, "fill": 0.5},
+                                emitter={"depth": 0.5}, grid={"points_per_wavelength": 10}))
+    layout = make_layout(case)
+    for orientation in ("parallel", "out-of-plane"):
+        fluxes = {}
+        for mode in ("complex", "real/imag"):
+            raw = run_job(case, layout, orientation, 0.0, layout.symmetric, kz=0.7, wavelength=1.0, kz_mode=mode)
+            fluxes[mode] = {k: v[0] / abs(raw["source_current"][0]) ** 2
+                            for k, v in job_fluxes(raw["lines"], layout.resolution).items()}
+        for key, value in fluxes["complex"].items():
+            assert fluxes["real/imag"][key] == pytest.approx(value, rel=1e-5, abs=1e-12), (orientation, key)
+
