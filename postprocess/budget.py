@@ -34,7 +34,10 @@ Electrodynamics, eq. 9.24, with the medium's index), whatever the dipole's
 direction. Its fluxes are the kz integrals of the 2-D runs' fluxes
 (:mod:`fdtd_cases.kz`): P_3D = (k0 / pi) sum_j w_j P_2D(u_j), each run's
 fluxes taken per |I|^2 of its own source (all runs share one source pulse).
-A test checks the integral of bulk runs against P0.
+Tests check this scaling through single kz runs of Meep against the exact power of that kz
+(references/kz_spectrum.py, whose bulk part integrates to P0 and whose whole to the exact 3-D
+dipole) and through whole point runs against the exact 3-D dipole; a kz-integrated run in a
+homogeneous cell against P0 is not in the suite (such cells ring for a long time near cut-off).
 """
 
 import numpy as np
