@@ -89,8 +89,6 @@ def parse_case(data, source="case"):
     if depth >= thickness:
         raise CaseError(source, "emitter.depth", f"is {depth:g} µm, not inside the chip "
                         f"(chip.thickness = {thickness:g} µm)")
-    if case.collection is not None and case.emitter.source == "point":
-        raise CaseError.not_for_point_sources(source, "[collection] (the far field over the hemisphere)")
     if case.collection is not None and case.collection.na is not None and case.collection.na > case.ambient.index:
         raise CaseError(source, "collection.na", f"is {case.collection.na:g}, more than the ambient index "
                         f"{case.ambient.index:g} (na = n_ambient sin(half-angle))")

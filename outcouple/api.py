@@ -110,8 +110,6 @@ def with_na(case, na):
     """The case with a collection cone of numerical aperture ``na`` (None: as it is)."""
     if na is None:
         return case
-    if case.emitter.source == "point":
-        raise CaseError.not_for_point_sources(case._origin[0], "a collection cone (--na)")
     if na > case.ambient.index:
         raise CaseError("command line", "--na", f"is {na:g}, more than the ambient index {case.ambient.index:g} "
                         "(na = n_ambient sin(half-angle))")

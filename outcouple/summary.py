@@ -10,14 +10,14 @@ a point dipole under the same stack with a flat surface (the 3-D baseline no
 collection cone.
 """
 
-from postprocess import analysis, farfield
+from postprocess import analysis, farfield, hemisphere
 from references import reference
 
 
 def exact_reference(case):
     """Exact planar result of the case's emitters, combined like the FDTD jobs (flat cases)."""
     if case.emitter.source == "point":
-        result = reference.planar(case, dim=3)
+        result = reference.planar(case, dim=3, angles=hemisphere.POLAR)
         result["method"] = "exact plane-wave (angular-spectrum) expansion of the point dipole in the flat stack"
         return result
     result = reference.planar(case, dim=2, angles=farfield.ANGLES)

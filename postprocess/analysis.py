@@ -8,7 +8,7 @@ them) is assembled in one place, :func:`outcouple.summary.summarise`.
 
 import numpy as np
 
-from . import farfield
+from . import farfield, hemisphere
 from .budget import bulk_power, job_fluxes, point_sources, summarise
 
 
@@ -43,8 +43,7 @@ def analyse(case, jobs, wavelengths, resolution):
 def _analyse_point(case, jobs, wavelengths, resolution):
     """The numbers of a point-source run: its dipoles integrated over kz, combined like line jobs.
 
-    The far field of a point dipole covers the hemisphere (kx and kz) and is
-    not computed yet: ``farfield`` is None.
+    The far field covers the hemisphere (:mod:`postprocess.hemisphere`).
     """
     dipoles = point_sources(jobs, wavelengths, resolution, case.chip.index)
     summary = summarise(dipoles, wavelengths, lossless=case.chip.alpha == 0)
@@ -53,8 +52,8 @@ def _analyse_point(case, jobs, wavelengths, resolution):
         entry.update({"kz_runs": len(nodes), "time_steps": sum(int(n.get("time_steps", 0)) for n in nodes),
                       "wall_time": sum(float(n.get("wall_time", 0.0)) for n in nodes),
                       "stopped_by_decay": all(bool(n.get("stopped_by_decay", True)) for n in nodes)})
-    summary.update({"source": "point", "kz_nodes": len(dipoles[0]["nodes"]) // len(wavelengths),
-                    "farfield": None, "farfield_closure": None})
+    summary.update({"source": "point", "kz_nodes": len(dipoles[0]["nodes"]) // len(wavelengths)})
+    summary.update(hemisphere.far_field(dipoles, wavelengths, resolution, case.ambient.index))
     return summary
 
 
@@ -96,16 +95,20 @@ def collection_summary(case, summary):
     """``collected`` and ``collection``: the power inside the case's collection cone.
 
     Beside the FDTD value: a Lambertian pattern carrying the same escaped
-    power (2-D: sin(half-angle) of it) and, for flat cases, the exact planar value.
+    power (2-D: sin(half-angle) of it; a point source's 3-D cone: sin^2, i.e.
+    NA^2 / n_ambient^2) and, for flat cases, the exact planar value. A point
+    source's ``farfield`` is per degree of polar angle from 0 to 90 degrees,
+    so the same integral up to the half-angle gives the cone's power.
     """
     c = case.collection
+    point = case.emitter.source == "point"
     half = c.degrees(case.ambient.index)
     na = c.na if c.na is not None else case.ambient.index * float(np.sin(np.radians(half)))
     ff = summary["farfield"]
     fraction = farfield.collected(ff["angle"], ff["intensity"], half)
     info = {"na": na, "half_angle": half,
             "of_escaped": fraction / summary["efficiency"] if summary["efficiency"] > 0 else None,
-            "lambertian": summary["efficiency"] * float(np.sin(np.radians(half)))}
+            "lambertian": summary["efficiency"] * float(np.sin(np.radians(half))) ** (2 if point else 1)}
     ref = summary.get("reference")
     if ref is not None:
         info["exact"] = farfield.collected(ref["farfield"]["angle"], ref["farfield"]["intensity"], half)

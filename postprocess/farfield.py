@@ -59,7 +59,7 @@ CLOSURE_WARN = 0.02
 """Far-field integral against the top flux: above this relative difference, reports warn."""
 
 
-def _transform(values, start, end, half_integer, kx):
+def line_transform(values, start, end, half_integer, kx):
     """Fourier transform along x of Yee samples: (n_wavelengths, n_points) -> (n_wavelengths, n_angles)."""
     (x1, _), (x2, _) = start, end
     count = values.shape[-1]
@@ -113,13 +113,13 @@ def line_pattern(fields, start, end, wavelengths, n_ambient, angles=ANGLES, reso
     n = n_ambient
     rows = 1.0 if resolution is None else np.cos(n * omega[:, None] * cos / (2 * resolution))
     if "ez" in fields:
-        ez = _transform(fields["ez"], start, end, False, kx)
-        hx = _transform(fields["hx"], start, end, False, kx) / rows
+        ez = line_transform(fields["ez"], start, end, False, kx)
+        hx = line_transform(fields["hx"], start, end, False, kx) / rows
         amplitude = (cos * ez + hx / n) / 2
         factor = n ** 2 * omega[:, None] / (2 * np.pi)
     else:
-        hz = _transform(fields["hz"], start, end, True, kx) / rows
-        ex = _transform(fields["ex"], start, end, True, kx)
+        hz = line_transform(fields["hz"], start, end, True, kx) / rows
+        ex = line_transform(fields["ex"], start, end, True, kx)
         amplitude = (cos * hz - n * ex) / 2
         factor = omega[:, None] / (2 * np.pi)
     return factor * np.abs(amplitude) ** 2
@@ -144,13 +144,16 @@ def lambertian(escaped, angles=ANGLES):
 def collected(angles, intensity, half_angle):
     """Power inside the fan |theta| <= half_angle (degrees), from an intensity per degree.
 
-    The intensity is interpolated linearly between the given angles, so the
+    Only the sampled angles count: a pattern given from 0 to 90 degrees (a
+    point dipole's, per degree of polar angle) gives the power inside the
+    cone of that half-angle. The intensity is interpolated linearly between the given angles, so the
     edge of the fan need not fall on a sample.
     """
     angles = np.asarray(angles, dtype=float)
     intensity = np.asarray(intensity, dtype=float)
-    inside = np.abs(angles) < half_angle
-    grid = np.concatenate(([-half_angle], angles[inside], [half_angle]))
+    low, high = max(-half_angle, angles[0]), min(half_angle, angles[-1])
+    inside = (angles > low) & (angles < high)
+    grid = np.concatenate(([low], angles[inside], [high]))
     values = np.interp(grid, angles, intensity)
     return float(np.trapz(values, grid))
 

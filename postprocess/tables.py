@@ -76,12 +76,22 @@ def _farfield_lines(summary):
     """The far-field and collection lines of the plain-text report."""
     ff, ref = summary["farfield"], summary.get("reference")
     angles, intensity = np.array(ff["angle"]), np.array(ff["intensity"])
-    peak = float(angles[np.argmax(intensity)])
     half = farfield.half_power_angle(angles, intensity)
-    out = ["", "  far field in the ambient (all jobs and wavelengths; angles from the normal):",
-           f"    peak at {peak:+.0f} deg; half of the escaped power within +/-{_angle(half)} deg"
-           + (f" (exact {_angle(farfield.half_power_angle(ref['farfield']['angle'], ref['farfield']['intensity']))})"
-              if ref else "") + "; a Lambertian pattern: +/-30.0 deg"]
+    exact = (f" (exact {_angle(farfield.half_power_angle(ref['farfield']['angle'], ref['farfield']['intensity']))})"
+             if ref else "")
+    if "cuts" in ff:  # a point source: the hemisphere, 3-D cones
+        cuts = ff["cuts"]
+        brightest = {p: abs(float(cuts["angle"][int(np.argmax(cuts[p]))])) for p in ("xy", "zy")}
+        out = ["", "  far field over the hemisphere (all dipoles and wavelengths; polar angles from the normal):",
+               f"    half of the escaped power within a cone of {_angle(half)} deg half-angle{exact}; "
+               "a Lambertian source: 45.0 deg",
+               f"    brightest direction: +/-{brightest['xy']:.0f} deg in the x-y plane (across the pattern's lines), "
+               f"+/-{brightest['zy']:.0f} deg in the z-y plane (along them)"]
+    else:
+        peak = float(angles[np.argmax(intensity)])
+        out = ["", "  far field in the ambient (all jobs and wavelengths; angles from the normal):",
+               f"    peak at {peak:+.0f} deg; half of the escaped power within +/-{_angle(half)} deg{exact}"
+               "; a Lambertian pattern: +/-30.0 deg"]
     closure = summary["farfield_closure"]
     if closure is not None:
         out.append(f"    far-field integral against the top flux {closure:+.2%}")

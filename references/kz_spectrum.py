@@ -100,3 +100,24 @@ def spectrum(stack, depth, wavelength, orientation, u):
     else:
         bulk = 3 * np.pi / (4 * k_ref) * (1 + ratio ** 2)
     return {"top": top, "emitted": bulk + reflected, "bulk": bulk}
+
+
+def radiance(stack, depth, wavelength, orientation, s_x, s_z):
+    """Exact escaped power per steradian of a point dipole under a flat stack, as a fraction of its 3-D
+    bulk power, towards the ambient direction of cosines (s_x, s_y, s_z), s_x^2 + s_z^2 < 1.
+
+    The density over the (kx, kz) plane is sum e g / (2 pi kappa) (the derivation above) and
+    dkx dkz = k^2 s_y dOmega in the ambient (k = n_ambient k0), so the radiance is that density
+    times k^2 s_y. The x-y plane is s_z = 0, the z-y plane s_x = 0.
+    """
+    k0 = 2 * np.pi / wavelength
+    k = stack.ambient * k0
+    s_x, s_z = np.broadcast_arrays(np.asarray(s_x, dtype=float), np.asarray(s_z, dtype=float))
+    kx, kz = k * s_x, k * s_z
+    kappa = np.maximum(np.hypot(kx, kz), 1e-9 * k)  # the density is finite at the normal
+    kx = np.where(np.hypot(kx, kz) < 1e-9 * k, kappa, kx)  # and, there, that of any azimuth
+    total = np.zeros_like(kappa)
+    for pol, sigma, kind in PARTS[orientation]:
+        total = total + (_escaping(stack, pol, sigma, 3, k0, complex(stack.chip).real * k0, kappa, depth)
+                         * _factor(kind, kx, kappa) / kappa)
+    return total / (2 * np.pi) * k ** 2 * np.sqrt(np.clip(1 - s_x ** 2 - s_z ** 2, 0, None))

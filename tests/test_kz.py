@@ -97,11 +97,6 @@ def test_point_sources_are_refused_where_they_are_not_built(tmp_path):
     assert_refused(run_cli("sweep", case, "--out", tmp_path / "sweep"), "emitter.source", "a sweep",
                    folder=tmp_path, pattern="sweep")
     assert_refused(run_cli("compare", case, "--vary", "chip.index=2:2.2:2"), "emitter.source", "compare")
-    assert_refused(run_cli("run", case, "--na", "0.5", "-o", tmp_path / "x.h5"), "emitter.source", "--na",
-                   folder=tmp_path, pattern="*.h5")
-    with_cone = tmp_path / "cone.toml"
-    with_cone.write_text(case_toml(make_case(emitter={"source": "point"}, collection={"na": 0.5})))
-    assert_refused(run_cli("check", with_cone), "emitter.source", "[collection]")
 
 
 @pytest.mark.parametrize("orientation", ["parallel", "normal", "out-of-plane"])
