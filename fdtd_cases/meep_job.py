@@ -189,7 +189,7 @@ def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, 
         flux[name] = sim.add_flux(freqs, mp.FluxRegion(center=center, size=size, weight=weight))
     picture = None
     if field_map:
-        along_z = saved[0] if saved[0] == "ez" else "hz"
+        along_z = "ez" if orientation == "out-of-plane" else "hz"  # the component along z of its polarisation
         center, size = _field_map_region(layout)
         picture = (along_z, sim.add_dft_fields([_MEEP_COMPONENT[along_z]], [layout.fcen], center=center, size=size))
     crossing = case.chip.index * (layout.cell_x + layout.cell_y)

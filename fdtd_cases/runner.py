@@ -11,6 +11,7 @@ import os
 import sys
 from concurrent.futures import ProcessPoolExecutor, as_completed
 
+import numpy as np
 from tqdm import tqdm
 
 from . import kz
@@ -22,8 +23,9 @@ def plan_jobs(case, layout, guided=None):
     Mirror symmetry about x = 0 is used when the pattern is symmetric and the
     emitter sits on the mirror plane (x = 0). A point source has one job per
     orientation, position, wavelength and node of the kz integral
-    (:mod:`fdtd_cases.kz`), carrying ``wavelength``, ``kz`` (in units of k0)
-    and ``kz_weight``; ``guided`` maps a wavelength's index to the effective
+    (:mod:`fdtd_cases.kz`), carrying ``wavelength``, ``kz`` (in units of k0),
+    ``kz_weight`` and ``picture`` (the one node of each dipole that records a
+    field picture when asked: the smallest kz at the centre wavelength); ``guided`` maps a wavelength's index to the effective
     indices of the flat stack's guided modes there (breakpoints of the integral).
     """
     jobs = [{"orientation": orientation, "x": float(x), "symmetric": bool(layout.symmetric and x == 0.0)}
@@ -31,9 +33,11 @@ def plan_jobs(case, layout, guided=None):
     if case.emitter.source == "line":
         return jobs
     nodes = []
+    centre = int(np.argmin(np.abs(layout.wavelengths - 1.0 / layout.fcen)))
     for i, wavelength in enumerate(layout.wavelengths):
         u, w = kz.case_rule(case, wavelength, (guided or {}).get(i, ()))
-        nodes += [{"wavelength": float(wavelength), "kz": float(a), "kz_weight": float(b)} for a, b in zip(u, w)]
+        nodes += [{"wavelength": float(wavelength), "kz": float(a), "kz_weight": float(b),
+                   "picture": bool(i == centre and j == int(np.argmin(u)))} for j, (a, b) in enumerate(zip(u, w))]
     return [{**job, **node} for job in jobs for node in nodes]
 
 
@@ -45,8 +49,10 @@ def _quiet_worker():
     warnings.filterwarnings("ignore", message="The value of the smallest subnormal")
 
 
-def _run_one(case, layout, job, field_map=False):
+def run_planned(case, layout, job, field_map=False):
+    """Run one planned job (:func:`plan_jobs`) in this process: a line job, or one kz node of a point source."""
     from .meep_job import run_job
+    field_map = field_map and job.get("picture", True)
     if "kz" in job:  # a node of a point source: Meep takes kz in cycles per µm
         return run_job(case, layout, job["orientation"], job["x"], job["symmetric"], field_map=field_map,
                        kz=job["kz"] / job["wavelength"], wavelength=job["wavelength"])
@@ -97,7 +103,7 @@ def run_many(items, workers=None, progress=True, on_result=None, on_error=None):
     bar = tqdm(total=len(items), desc="FDTD jobs", unit="job", file=sys.stderr, disable=not progress,
                bar_format="{desc}: {n_fmt}/{total_fmt} |{bar}| {elapsed} elapsed, {remaining} left")
     with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_quiet_worker) as pool:
-        futures = {pool.submit(_run_one, *item): i for i, item in enumerate(items)}
+        futures = {pool.submit(run_planned, *item): i for i, item in enumerate(items)}
         for future in as_completed(futures):
             i = futures[future]
             job = items[i][2]

@@ -247,8 +247,6 @@ def report(source, output=None, na=None):
     else:
         data = read_results(source)
         case = stored_case(data, source)
-        if case.emitter.source == "point":
-            raise CaseError.not_for_point_sources(source, "the HTML report (the far field over the hemisphere)")
         case = with_na(case, na)
         layout = make_layout(case, source=f"{source}:/case/resolved")
         grid = data["grid"]

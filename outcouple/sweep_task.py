@@ -24,7 +24,8 @@ def run_task(out_dir, batch_file, index):
     A job that fails leaves its .failed file and the task goes on with the
     next; the task exits non-zero if any failed.
     """
-    from fdtd_cases.meep_job import is_master, run_job
+    from fdtd_cases.meep_job import is_master
+    from fdtd_cases.runner import run_planned
 
     # Under MPI every rank runs the simulation; only the master writes files (Meep's rule).
     master = is_master()
@@ -43,7 +44,7 @@ def run_task(out_dir, batch_file, index):
         try:
             case = parse_case(tomllib.loads(point["case_toml"]), source=f"{out_dir}/{PLAN}")
             layout = make_layout(case)
-            raw = run_job(case, layout, job["orientation"], job["x"], job["symmetric"])
+            raw = run_planned(case, layout, job)
             if master:
                 write_job(out_dir, case, layout, job, raw, point)
         except Exception as error:

@@ -4,7 +4,8 @@ A sweep folder holds ``plan.json`` (the axes, every point's validated case
 as TOML, and its jobs) and ``jobs/ID.h5``, one complete result file per job
 (written under a temporary name and renamed), or ``jobs/ID.failed`` with the
 reason when a job failed. A job's id is a hash of its point's resolved case,
-its orientation and position, and the result-format version: a changed case
+its orientation and position (for a point source also its wavelength and
+kz node: each node is a job of its own), and the result-format version: a changed case
 never reuses a stale result, an unchanged one is never recomputed, so
 running the sweep again only runs what is missing or failed.
 """
@@ -27,13 +28,14 @@ from fdtd_cases.case import Collection
 from fdtd_cases.case_file import parse_case, resolved_dict
 from fdtd_cases.errors import CaseError
 from fdtd_cases.layout import make_layout
-from fdtd_cases.runner import plan_jobs, run_many
+from fdtd_cases.runner import run_many
 from postprocess.files import atomic_write
 from postprocess.results import FORMAT_VERSION, read_results, write_results
 from postprocess.sweep_file import read_sweep, write_sweep
 
 from . import slurm
 from .comparison import with_value
+from .jobs import jobs_of
 from .summary import flat_baseline, summarise
 from .version import __version__
 
@@ -91,9 +93,11 @@ def _label(values):
     return ", ".join(f"{k} = {v:g}" for k, v in values.items())
 
 
-def job_id(resolved_toml, orientation, x):
-    """Hash of a job's inputs and the result-format version."""
+def job_id(resolved_toml, orientation, x, wavelength=None, kz=None):
+    """Hash of a job's inputs and the result-format version (a point source's node adds its wavelength and kz)."""
     text = f"format {FORMAT_VERSION}\n{resolved_toml}\norientation {orientation}\nx {x!r}\n"
+    if kz is not None:
+        text += f"wavelength {wavelength!r}\nkz {kz!r}\n"
     return hashlib.sha256(text.encode()).hexdigest()[:20]
 
 
@@ -110,11 +114,10 @@ def plan(data, source):
             point = with_value(point, key, value, f"{source}: [sweep]")
         where = f"{source} (at {_label(values)})"
         case = parse_case(point, source=where)
-        if case.emitter.source == "point":
-            raise CaseError.not_for_point_sources(source, "a sweep")
         layout = make_layout(case, source=where)
         resolved = tomli_w.dumps(resolved_dict(case))
-        jobs = [{**job, "id": job_id(resolved, job["orientation"], job["x"])} for job in plan_jobs(case, layout)]
+        jobs = [{**job, "id": job_id(resolved, job["orientation"], job["x"], job.get("wavelength"), job.get("kz"))}
+                for job in jobs_of(case, layout)]
         points.append({"values": values, "case_toml": resolved, "jobs": jobs})
     collection = parse_case(data, source=source).collection
     return {"case_file": str(source), "mode": mode,
@@ -243,7 +246,8 @@ def submit_slurm(out_dir, cluster, python):
 def point_summaries(out_dir, the_plan):
     """The summary of every point, from its job files (the same as ``show`` of a run of that point).
 
-    Each carries ``flat_baseline``, the exact efficiency of the point's stack with a flat surface.
+    Each carries ``flat_baseline``, the exact efficiency of the point's stack with a flat surface (of the
+    line emitter or the point dipole the sweep runs).
     """
     jobs_dir = Path(out_dir) / "jobs"
     missing = [job["id"] for point in the_plan["points"] for job in point["jobs"]
@@ -262,7 +266,7 @@ def point_summaries(out_dir, the_plan):
             grid = data["grid"]
             jobs += data["jobs"]
         summary = summarise(case, jobs, grid["wavelengths"], grid["resolution"])
-        summary["flat_baseline"] = flat_baseline(case)
+        summary["flat_baseline"] = flat_baseline(case, dim=3 if case.emitter.source == "point" else 2)
         summaries.append(summary)
     return summaries
 

@@ -194,6 +194,29 @@ def plot_field_map(field_map, chip_polygon, emitter, path, title="", span_db=40.
     plt.close(fig)
 
 
+def _half_polar():
+    """A figure with a polar axis over -90..90 degrees, zero at the top (the surface normal)."""
+    fig = plt.figure(figsize=(6.4, 4.2), dpi=120)
+    ax = fig.add_subplot(projection="polar")
+    ax.set_theta_zero_location("N")
+    ax.set_theta_direction(-1)
+    ax.set_thetamin(-90)
+    ax.set_thetamax(90)
+    return fig, ax
+
+
+def _finish_half_polar(fig, ax, path, per, title):
+    """Labels, legend and the PNG of a :func:`_half_polar` figure; ``per``: the radius's unit."""
+    ax.tick_params(axis="y", labelsize=7)
+    ax.set_xlabel(f"angle from the surface normal (degrees); radius: % of the emitted power per {per}",
+                  fontsize=8, labelpad=-40)
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, 0.02), fontsize=7, ncol=2, frameon=False)
+    ax.set_title(title)
+    fig.tight_layout()
+    fig.savefig(path, format="png")
+    plt.close(fig)
+
+
 def plot_farfield(farfield, path, reference=None, title="", collection=None):
     """Polar plot of the escaped intensity per degree, with a Lambertian pattern of the same power.
 
@@ -210,12 +233,7 @@ def plot_farfield(farfield, path, reference=None, title="", collection=None):
     """
     theta = np.radians(np.asarray(farfield["angle"], dtype=float))
     scale = 100.0  # percent per degree reads better than 0.00x
-    fig = plt.figure(figsize=(6.4, 4.2), dpi=120)
-    ax = fig.add_subplot(projection="polar")
-    ax.set_theta_zero_location("N")
-    ax.set_theta_direction(-1)
-    ax.set_thetamin(-90)
-    ax.set_thetamax(90)
+    fig, ax = _half_polar()
     top = max(np.max(farfield["intensity"]), np.max(farfield["lambertian"]),
               np.max(reference["intensity"]) if reference else 0.0) * scale * 1.1
     if collection is not None:
@@ -231,14 +249,57 @@ def plot_farfield(farfield, path, reference=None, title="", collection=None):
     ax.set_rlabel_position(-72)
     ticks = MaxNLocator(4).tick_values(0, top)
     ax.set_yticks(ticks[(ticks > 0) & (ticks <= top)])
-    ax.tick_params(axis="y", labelsize=7)
-    ax.set_xlabel("angle from the surface normal (degrees); radius: % of the emitted power per degree",
-                  fontsize=8, labelpad=-40)
-    ax.legend(loc="upper center", bbox_to_anchor=(0.5, 0.02), fontsize=7, ncol=2, frameon=False)
-    ax.set_title(title or "far field in the ambient")
+    _finish_half_polar(fig, ax, path, "degree", title or "far field in the ambient")
+
+
+def plot_hemisphere(farfield, path, collection=None, title=""):
+    """The radiance of a point source over the hemisphere, seen from above (orthographic).
+
+    Parameters
+    ----------
+    farfield : dict
+        A point source's far field (:mod:`postprocess.hemisphere`): its ``map``
+        (``theta_z``, ``alpha`` in degrees, ``intensity`` per steradian).
+    collection : float, optional
+        Half-angle of a collection cone, degrees, drawn as a circle.
+    """
+    m = farfield["map"]
+    theta_z, alpha = np.meshgrid(np.radians(m["theta_z"]), np.radians(m["alpha"]), indexing="ij")
+    s_x, s_z = np.cos(theta_z) * np.sin(alpha), np.sin(theta_z)
+    values = np.clip(np.asarray(m["intensity"], dtype=float), 0, None) * 100.0
+    fig, ax = plt.subplots(figsize=(5.6, 4.8), dpi=120)
+    mesh = ax.pcolormesh(s_x, s_z, values, shading="gouraud", cmap=MAP_SCALE)
+    fig.colorbar(mesh, ax=ax, label="% of the emitted power per steradian")
+    ring = np.linspace(0, 2 * np.pi, 200)
+    for degrees in (30, 60, 90):
+        ax.plot(np.sin(np.radians(degrees)) * np.cos(ring), np.sin(np.radians(degrees)) * np.sin(ring),
+                color=AMBIENT_COLOUR, lw=0.6)
+        ax.annotate(f"{degrees}°", (np.sin(np.radians(degrees)) * 0.71, np.sin(np.radians(degrees)) * 0.71),
+                    color=AMBIENT_COLOUR, fontsize=7)
+    if collection is not None:
+        r = np.sin(np.radians(collection))
+        ax.plot(r * np.cos(ring), r * np.sin(ring), color=EMITTER_COLOUR, lw=1.2, ls="--",
+                label=f"collection cone (+/-{collection:.1f}°)")
+        ax.legend(loc="lower right", fontsize=7)
+    ax.set_aspect("equal")
+    ax.set_xlabel("direction cosine along x (across the pattern's lines)")
+    ax.set_ylabel("direction cosine along z (along the lines)")
+    ax.set_title(title or "far field over the hemisphere, seen from above")
     fig.tight_layout()
     fig.savefig(path, format="png")
     plt.close(fig)
+
+
+def plot_cuts(farfield, path, title=""):
+    """The two cuts of a point source's radiance (x-y and z-y planes) with a Lambertian of the same power."""
+    cuts = farfield["cuts"]
+    theta = np.radians(np.asarray(cuts["angle"], dtype=float))
+    fig, ax = _half_polar()
+    ax.plot(theta, 100 * np.asarray(cuts["xy"]), color=MONITOR_COLOUR, lw=1.8, label="x-y plane (across the lines)")
+    ax.plot(theta, 100 * np.asarray(cuts["zy"]), color=EMITTER_COLOUR, lw=1.4, label="z-y plane (along the lines)")
+    ax.plot(theta, 100 * np.asarray(cuts["lambertian"]), ls=":", color=LAMBERT_COLOUR, lw=1.4,
+            label="Lambertian, same escaped power")
+    _finish_half_polar(fig, ax, path, "steradian", title or "radiance in two planes through the normal")
 
 
 def plot_budget(rows, path, title=""):

@@ -33,8 +33,9 @@ img { max-width: 100%; display: block; margin: 0.6em 0; }
 .caution { background: #fff6e5; border: 1px solid #e0a100; padding: 0.6em 1em; }
 """
 
-CAUTIONS = """<p>These are results of a two-dimensional full-wave model: a line emitter in a structure that
-does not vary along z. Real chips are three-dimensional; use the numbers to compare designs and
+CAUTIONS = """<p>These are results of a full-wave model of a structure that does not vary along z: a line
+emitter (a two-dimensional model), or a point dipole assembled from such two-dimensional runs. Real
+chips have finite size in every direction; use the numbers to compare designs and
 to understand trends, and confirm a design by measurement before committing to it. Numbers depend
 on the material data and the grid: see the convergence facts above and run
 <code>outcouple converge</code> before relying on a value.</p>
@@ -129,7 +130,8 @@ def result_report(data, case, layout, summary, bounds=None):
     if pictures:
         body = "".join(_figure(plots.plot_field_map, fm, grid["chip_polygon"], (job["x"], -case.emitter.depth),
                                title=f"{job['orientation']} emitter at x = {job['x']:g} µm: |{fm['component'][0].upper()}"
-                                     f"{fm['component'][1]}| at {fm['wavelength']:.4g} µm",
+                                     f"{fm['component'][1]}| at {fm['wavelength']:.4g} µm"
+                                     + (f", kz = {job['kz']:.3f} k0" if "kz" in job else ""),
                                alt=f"field of the {job['orientation']} job") for job, fm in pictures)
     else:
         body = "<p>no field pictures in this file (run with <code>outcouple run --fields</code>)</p>"
@@ -189,10 +191,14 @@ def _efficiency(summary, bounds):
     if ref:
         body += f"<p class=\"note\">exact: {html.escape(ref['method'])}</p>"
     elif bounds is not None:
-        body += _table(["reference for this patterned surface (not predictions)", "line emitter (2-D)"], [
-            ["the same stack with a flat surface (exact)", _f(bounds["efficiency"])],
-            ["an ideal randomising top over this chip and back", _f(bounds["randomising_bound"]["line_emitter"])],
-            ["escape cone with Fresnel losses, thick chip", _f(bounds["escape_cone"]["line_emitter"]["with_fresnel"])],
+        point = summary.get("source") == "point"
+        key = "point_dipole" if point else "line_emitter"
+        flat = bounds["point_dipole"]["efficiency"] if point else bounds["efficiency"]
+        body += _table(["reference for this patterned surface (not predictions)",
+                        "point dipole (3-D)" if point else "line emitter (2-D)"], [
+            ["the same stack with a flat surface (exact)", _f(flat)],
+            ["an ideal randomising top over this chip and back", _f(bounds["randomising_bound"][key])],
+            ["escape cone with Fresnel losses, thick chip", _f(bounds["escape_cone"][key]["with_fresnel"])],
         ])
     if summary.get("point_dipole_baseline") is not None:
         body += (f'<p class="warn">3-D context: these are a line emitter\'s numbers. Point dipoles of the same '
@@ -202,6 +208,8 @@ def _efficiency(summary, bounds):
 
 
 def _farfield(summary):
+    if "cuts" in summary["farfield"]:
+        return _hemisphere(summary)
     ff, ref = summary["farfield"], summary.get("reference")
     half = summary["collection"]["half_angle"] if "collection" in summary else None
     body = _figure(plots.plot_farfield, ff, reference=ref["farfield"] if ref else None, collection=half,
@@ -225,6 +233,40 @@ def _farfield(summary):
              "angular spectrum of the fields on the top monitor line. Detail finer than about "
              "wavelength / monitor width (radians) is not resolved.</p>")
     return body
+
+
+def _hemisphere(summary):
+    """The far-field section of a point source: the hemisphere map, the two cuts and 3-D cones."""
+    ff, ref = summary["farfield"], summary.get("reference")
+    half = summary["collection"]["half_angle"] if "collection" in summary else None
+    body = _figure(plots.plot_hemisphere, ff, collection=half, alt="far field over the hemisphere")
+    body += _figure(plots.plot_cuts, ff, alt="radiance in the x-y and z-y planes")
+    angles, intensity = np.array(ff["angle"]), np.array(ff["intensity"])
+    exact = (lambda fan: _f(farfield.collected(ref["farfield"]["angle"], ref["farfield"]["intensity"], fan))) \
+        if ref else (lambda fan: "")
+    half_power = farfield.half_power_angle(angles, intensity)
+    rows = [["half-angle of the cone holding half the escaped power (degrees)",
+             "n/a" if half_power is None else f"{half_power:.1f}", "45.0",
+             _angle_or_blank(ref and farfield.half_power_angle(ref["farfield"]["angle"], ref["farfield"]["intensity"]))]]
+    for fan in (10, 30, 60):
+        rows.append([f"fraction of the emitted power within a cone of {fan} degrees",
+                     _f(farfield.collected(angles, intensity, fan)),
+                     _f(summary["efficiency"] * float(np.sin(np.radians(fan))) ** 2), exact(fan)])
+    if "collected" in summary:
+        c = summary["collection"]
+        rows.append([f"collected within NA {c['na']:.3f} (+/-{c['half_angle']:.1f} degrees)",
+                     _f(summary["collected"]), _f(c["lambertian"]), _f(c["exact"]) if "exact" in c else ""])
+    body += _table(["", "FDTD", "Lambertian, same escaped power", "exact, flat stack" if ref else ""], rows)
+    body += ("<p class=\"note\">a 3-D point dipole's far field, from the out-of-plane wavenumber runs: each "
+             "run gives one row of directions, and the rows are interpolated between runs. Cones are "
+             "circular about the normal; the x-y plane runs across the pattern's lines, the z-y plane along "
+             "them. Single directions ripple by several percent (the finite top monitor line); "
+             "cones and sums over angle are steadier.</p>")
+    return body
+
+
+def _angle_or_blank(value):
+    return "" if value is None or value is False else f"{value:.1f}"
 
 
 def sweep_report(out_dir, the_plan, summaries, sweep_data):

@@ -6,15 +6,18 @@ that from the job files, with the same summary as ``run`` and ``show``).
 
 /axes/KEY               the values of each swept key (grid mode: one axis each)
 /                       attrs: format "outcouple-sweep", format_version, mode, keys (JSON),
-                               case_file, package_version
+                               case_file, package_version, source ("line" or "point")
 /efficiency             shape: the axes' lengths (grid) or (points,) (zip)
 /budget/CATEGORY        top, bottom, sides, absorbed; same shape
 /by_orientation/NAME    same shape
 /efficiency_spectrum    shape + (wavelengths,)
 /wavelengths            sampled vacuum wavelengths, µm (those of the first point)
 /flat_baseline          the exact planar efficiency of each point's stack with a flat surface
-/farfield/angle         far-field angles, degrees from the normal (-90 to 90)
-/farfield/intensity     shape + (angles,): fraction of the emitted power per degree
+                        (of the same emitter: line, or point dipole)
+/farfield/angle         far-field angles, degrees from the normal: -90 to 90 for line sources,
+                        polar angles 0 to 90 for point sources
+/farfield/intensity     shape + (angles,): fraction of the emitted power per degree (point
+                        sources: per degree of polar angle, summed over azimuth)
 /collected              with a [collection] table: fraction of the emitted power inside the
                         cone (attrs: half_angle, degrees)
 
@@ -60,7 +63,7 @@ def _write_h5(path, the_plan, summaries, package_version, keys, grid_of):
     with h5py.File(path, "w") as f:
         f.attrs.update({"format": FORMAT, "format_version": FORMAT_VERSION, "mode": the_plan["mode"],
                         "keys": json.dumps(keys), "case_file": the_plan["case_file"],
-                        "package_version": package_version})
+                        "package_version": package_version, "source": summaries[0].get("source", "line")})
         for a in the_plan["axes"]:
             f[f"axes/{a['key']}"] = np.array(a["values"])
         f["efficiency"] = grid_of([s["efficiency"] for s in summaries])

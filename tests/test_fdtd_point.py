@@ -7,21 +7,33 @@ Small domains and coarse grids keep these to a minute: the default grid's figure
 bench/validate_point.py and are quoted in the README.
 """
 
+import json
+
 import numpy as np
 import pytest
 
-from conftest import make_case, requires_meep, run_case
+from conftest import case_toml, make_case, requires_meep, run_case, run_cli
 
 pytestmark = [requires_meep, pytest.mark.fdtd]
 
 
 @pytest.fixture(scope="module")
-def flat_point():
+def flat_point_file(tmp_path_factory):
     """A flat n = 2 half-space, isotropic point dipole 0.25 um deep, 16 points per chip wavelength (the
-    default), 16 um wide (as for the line far field, so that the top line's ends stay dark), NA 0.6 cone."""
-    data = make_case(emitter={"depth": 0.25, "orientation": "isotropic", "source": "point"},
-                     grid={"width": 16.0}, collection={"na": 0.6})
-    return run_case(data)
+    default), 16 um wide (as for the line far field, so that the top line's ends stay dark), NA 0.6
+    cone; run by the command line: (its --json summary, the result file)."""
+    folder = tmp_path_factory.mktemp("point")
+    (folder / "point.toml").write_text(case_toml(make_case(
+        emitter={"depth": 0.25, "orientation": "isotropic", "source": "point"},
+        grid={"width": 16.0}, collection={"na": 0.6})))
+    ran = run_cli("run", "point.toml", "--json", "--quiet", cwd=folder)
+    assert ran.returncode == 0, ran.stderr
+    return json.loads(ran.stdout), folder / "point.h5"
+
+
+@pytest.fixture(scope="module")
+def flat_point(flat_point_file):
+    return flat_point_file[0]
 
 
 def test_flat_half_space_against_the_exact_3d_dipole(flat_point):
@@ -93,6 +105,25 @@ def test_cuts_against_the_exact_radiance(flat_point):
                 for a, mine, ref in zip(edges, ours, theirs):
                     assert mine == pytest.approx(ref, rel=0.08), (
                         f"{orientation} {plane} from {side * a} deg: FDTD {mine:.5f} vs exact {ref:.5f}")
+
+
+def test_report_and_a_cone_chosen_after_the_run(flat_point_file):
+    """The HTML report of a point run shows the hemisphere and the cuts with the run's numbers; a cone
+    chosen after the run (show --na) is served by the saved fields, against the exact cone."""
+    summary, path = flat_point_file
+    made = run_cli("report", path, cwd=path.parent)
+    assert made.returncode == 0, made.stderr
+    text = path.with_suffix(".html").read_text(encoding="utf-8")
+    for words in ("far field over the hemisphere", "radiance in the x-y and z-y planes", "IEC 62471",
+                  f"{summary['collected']:.4f}", f"{summary['collection']['exact']:.4f}", "point dipole"):
+        assert words in text, words
+    shown = run_cli("show", path, "--na", "0.3", "--json")
+    assert shown.returncode == 0, shown.stderr
+    narrow = json.loads(shown.stdout)
+    assert narrow["collection"]["na"] == 0.3 and narrow["efficiency"] == summary["efficiency"]
+    assert narrow["collected"] == pytest.approx(narrow["collection"]["exact"], rel=0.04), (
+        f"NA 0.3: FDTD {narrow['collected']:.5f} vs exact {narrow['collection']['exact']:.5f}")
+    assert narrow["collected"] < summary["collected"]
 
 
 @pytest.mark.parametrize("orientation", ["parallel", "normal", "out-of-plane"])

@@ -6,7 +6,7 @@ import json
 import h5py
 import pytest
 
-from conftest import assert_refused, case_toml, requires_meep, run_cli, small_flat_case
+from conftest import assert_refused, case_toml, make_case, requires_meep, run_cli, small_flat_case
 
 SWEEP = case_toml(small_flat_case(sweep={"emitter.depth": [0.4, 0.6],
                                          "chip.index": {"start": 2.0, "stop": 2.4, "count": 2}}))
@@ -68,3 +68,42 @@ def test_bad_sweeps_are_refused_before_anything_runs(tmp_path, table, key, words
     case.write_text(case_toml(small_flat_case(sweep=table)))
     result = run_cli("sweep", case, "--out", tmp_path / "sw")
     assert_refused(result, key, words, folder=tmp_path, pattern="sw")
+
+
+POINT = {"chip": {"index": 1.6}, "emitter": {"depth": 0.4, "orientation": "out-of-plane", "source": "point"},
+         "grid": {"points_per_wavelength": 10, "width": 3.0, "pml": 1.0}}
+
+
+@requires_meep
+@pytest.mark.fdtd
+def test_point_source_sweep_equals_single_runs(tmp_path):
+    """A point source's sweep runs every kz node as a job of its own (ids differ by wavelength and kz),
+    and each collected point, cone included, equals `outcouple run` of the same case: the same nodes,
+    the same integration (to the CSV's six decimals). The flat baseline is the point dipole's (the
+    exact 3-D solver)."""
+    from outcouple.summary import flat_baseline
+    from fdtd_cases.case_file import parse_case
+
+    case = tmp_path / "point.toml"
+    case.write_text(case_toml(make_case(**POINT, collection={"na": 0.5}, sweep={"chip.index": [1.6, 1.8]})))
+    out = tmp_path / "sw"
+    done = run_cli("sweep", case, "--out", out, "--quiet", cwd=tmp_path)
+    assert done.returncode == 0, done.stderr
+    plan = json.loads((out / "plan.json").read_text())
+    ids = [job["id"] for point in plan["points"] for job in point["jobs"]]
+    assert len(ids) == len(set(ids)) > 2 * 8 and all("kz" in job for job in plan["points"][0]["jobs"])
+    assert run_cli("collect", out).returncode == 0
+    with open(out / "sweep.csv") as f:
+        rows = list(csv.DictReader(f))
+    with h5py.File(out / "sweep.h5") as f:
+        assert f.attrs["source"] == "point" and f["farfield/angle"][-1] == 90.0
+    for row in rows:
+        data = make_case(**{**POINT, "chip": {"index": float(row["chip.index"])}}, collection={"na": 0.5})
+        single = tmp_path / "single.toml"
+        single.write_text(case_toml(data))
+        ran = run_cli("run", single, "-o", tmp_path / "single.h5", "--json", "--quiet")
+        assert ran.returncode == 0, ran.stderr
+        summary = json.loads(ran.stdout)
+        assert float(row["efficiency"]) == pytest.approx(summary["efficiency"], abs=1e-6)
+        assert float(row["collected"]) == pytest.approx(summary["collected"], abs=1e-6)
+        assert float(row["flat_baseline"]) == pytest.approx(flat_baseline(parse_case(data), dim=3), abs=1e-6)

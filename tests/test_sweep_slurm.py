@@ -15,7 +15,7 @@ import time
 
 import pytest
 
-from conftest import assert_refused, case_toml, requires_meep, run_cli, service_missing, small_flat_case
+from conftest import assert_refused, case_toml, make_case, requires_meep, run_cli, service_missing, small_flat_case
 
 
 def slurm_reason():
@@ -138,6 +138,33 @@ def test_slurm_tasks_can_run_batches_of_jobs(tmp_path):
     assert result.returncode == 0, result.stdout + result.stderr
     assert "with 2 task(s)" in result.stdout and "done 4" in result.stdout, result.stdout
     assert len(list((out / "jobs").glob("*.h5"))) == 4
+
+
+@requires_meep
+@pytest.mark.fdtd
+@needs_slurm
+def test_point_source_nodes_run_as_array_tasks(tmp_path):
+    """A point source's kz nodes are jobs of the same SLURM array (several per task here), and the
+    collected point equals a local sweep of the same case (the same nodes, the same files)."""
+    text = case_toml(make_case(chip={"index": 1.6},
+                               emitter={"depth": 0.4, "orientation": "out-of-plane", "source": "point"},
+                               grid={"points_per_wavelength": 10, "width": 3.0, "pml": 1.0},
+                               sweep={"emitter.depth": [0.4]}, cluster={"time": "00:10:00", "mem": "1G"}))
+    case = tmp_path / "point.toml"
+    case.write_text(text)
+    assert run_cli("sweep", case, "--out", tmp_path / "local", "--quiet", cwd=tmp_path).returncode == 0
+    jobs = len(json.loads((tmp_path / "local" / "plan.json").read_text())["points"][0]["jobs"])
+    result = run_cli("sweep", case, "--out", tmp_path / "array", "--engine", "slurm", "--jobs-per-task", "6",
+                     "--wait", "300", cwd=tmp_path)
+    assert result.returncode == 0, result.stdout + result.stderr
+    assert f"with {-(-jobs // 6)} task(s)" in result.stdout and f"done {jobs}" in result.stdout, result.stdout
+    for folder in ("array", "local"):
+        assert run_cli("collect", tmp_path / folder).returncode == 0
+    rows = {}
+    for folder in ("array", "local"):
+        with open(tmp_path / folder / "sweep.csv") as f:
+            rows[folder] = next(csv.DictReader(f))
+    assert rows["array"] == rows["local"]
 
 
 MPI_PREFIX = "/opt/meep-mpi"
