@@ -21,12 +21,6 @@ class CaseError(Exception):
         self.message = message
         super().__init__(str(self))
 
-    @classmethod
-    def not_for_point_sources(cls, source, what):
-        """``what`` is not available for 3-D point sources yet (one message for every such refusal)."""
-        return cls(source, "emitter.source", f'"point": {what} is not available for point sources yet; '
-                   "'outcouple run' and 'outcouple converge' are (see the README, Point sources)")
-
     def __str__(self):
         where = f"{self.source}: {self.key}" if self.key else self.source
         return f"{where}: {self.message}"

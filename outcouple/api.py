@@ -210,7 +210,7 @@ def reference(case, na=None):
 
 def rays(case, rays=20000, seed=0, lateral="absorbing", na=None):
     """Ray-optics extraction on the FDTD's own geometry and domain (``outcouple rays``)."""
-    from references import raytrace
+    from references.raytrace3d import trace_case
 
     case = with_na(load_case(case), na)
     layout = make_layout(case, source=_source(case), fdtd=False)
@@ -218,7 +218,7 @@ def rays(case, rays=20000, seed=0, lateral="absorbing", na=None):
         raise CaseError("command line", "--lateral", f"periodic needs a periodic pattern ({', '.join(PERIODIC)}), "
                         f"not {case.surface.pattern!r}")
     started = time.perf_counter()
-    result = raytrace.run_case(case, layout, rays=rays, lateral=lateral, seed=seed)
+    result = trace_case(case, layout, rays=rays, lateral=lateral, seed=seed)
     elapsed = time.perf_counter() - started
     result.update({"case": _source(case), "lateral": lateral, "elapsed": elapsed,
                    "events_per_second": result["events"] / elapsed if elapsed > 0 else None})

@@ -24,7 +24,7 @@ from fdtd_cases.layout import make_layout
 from fdtd_cases.runner import run_cases
 from postprocess.files import atomic_write
 from postprocess.plots import plot_comparison
-from references import raytrace
+from references.raytrace3d import trace_case
 
 from .jobs import jobs_of
 from .summary import summarise
@@ -71,8 +71,6 @@ def prepare(data, source, key, values):
     points = []
     for value in values:
         case = case_with(data, key, value, source)
-        if case.emitter.source == "point":
-            raise CaseError.not_for_point_sources(source, "compare (ray tracing of 3-D directions)")
         points.append((float(value), case, make_layout(case, source=f"{source} (with {key} = {value:g})")))
     return points
 
@@ -83,7 +81,7 @@ def run(points, key, tolerance, rays, workers, progress):
     rows = []
     for (value, case, layout), merged in zip(points, runs):
         wave = summarise(case, merged, layout.wavelengths, layout.resolution)
-        ray = raytrace.run_case(case, layout, rays=rays)
+        ray = trace_case(case, layout, rays=rays)
         difference = ray["efficiency"] / wave["efficiency"] - 1 if wave["efficiency"] > 0 else math.inf
         rows.append({
             key: value,

@@ -192,7 +192,8 @@ def format_reference(result):
 
 def format_rays(result):
     """``outcouple rays``: the ray-optics efficiency, budget and statistics."""
-    out = [f"{result['case']}: ray optics, {result['rays']:,} rays, {result['events']:,} interactions in "
+    kind = "3-D rays of point dipoles" if result.get("source") == "point" else "rays in the x-y plane (line emitters)"
+    out = [f"{result['case']}: ray optics, {kind}: {result['rays']:,} rays, {result['events']:,} interactions in "
            f"{result['elapsed']:.1f} s ({result['lateral']} lateral boundaries)"]
     err = result["statistical_error"]
     out.append(f"\n  extraction efficiency   {result['efficiency']:.4f} +/- {err:.4f} (one standard error)")

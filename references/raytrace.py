@@ -177,7 +177,7 @@ def sample_directions(orientation, count, rng):
     return out[:count]
 
 
-def _hit_segments(px, py, dx, dy, geometry):
+def hit_segments(px, py, dx, dy, geometry):
     """Distance to the nearest surface segment ahead of each ray, and that segment's index.
 
     ``geometry`` is (ax, ay, ex, ey) of the segments, each of shape (1, M):
@@ -198,6 +198,35 @@ def _hit_segments(px, py, dx, dy, geometry):
         return np.where(second, t[:, 1], t[:, 0]), second.astype(np.int64)
     index = np.argmin(t, axis=1)
     return t[np.arange(len(px)), index], index
+
+
+def next_event(scene, px, py, dx, dy, chip, geometry, edge):
+    """Distance to each ray's next event, the event (0 surface, 1 back or bottom line, 2 top line,
+    3 lateral boundary at +/- ``edge``) and the surface segment met; ``chip``: rays inside the chip."""
+    t_surf, seg = hit_segments(px, py, dx, dy, geometry)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t_back = np.where(chip & (dy < 0), (scene.y_back - py) / dy, np.inf)
+        t_top = np.where(~chip & (dy > 0), (scene.y_top - py) / dy, np.inf)
+        t_side = np.where(dx > 0, (edge - px) / dx, np.where(dx < 0, (-edge - px) / dx, np.inf))
+    t, choice = t_surf, np.zeros(len(px), dtype=np.int8)
+    for code, other in ((1, t_back), (2, t_top), (3, t_side)):
+        other = np.maximum(other, 0)
+        nearer = other < t
+        t = np.where(nearer, other, t)
+        choice[nearer] = code
+    return t, choice, seg
+
+
+def lateral(scene, choice, done, ids, w, px, dx, tally):
+    """Rays at a lateral boundary (event 3) leave by the sides (their weight tallied, ``done`` set)
+    or, with periodic boundaries, wrap round by one period; returns the mask of those rays."""
+    side = (choice == 3) & ~done
+    if scene.period is None:
+        tally["sides"][ids[side]] += w[side]
+        done |= side
+    else:
+        px[side] -= np.sign(dx[side]) * scene.period
+    return side
 
 
 def _lambertian_up(count, rng):
@@ -249,18 +278,7 @@ def trace(scene, pos, d, pol, rng=None, weight_floor=1e-4, max_events=10000, ang
     total_events = 0
     edge = scene.x_side if scene.period is None else scene.period / 2
     while len(ids):
-        t_surf, seg = _hit_segments(px, py, dx, dy, geometry)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            t_back = np.where(chip & (dy < 0), (scene.y_back - py) / dy, np.inf)
-            t_top = np.where(~chip & (dy > 0), (scene.y_top - py) / dy, np.inf)
-            t_side = np.where(dx > 0, (edge - px) / dx, np.where(dx < 0, (-edge - px) / dx, np.inf))
-        # The nearest event: 0 surface, 1 back or bottom line, 2 top line, 3 lateral boundary.
-        t, choice = t_surf, np.zeros(len(ids), dtype=np.int8)
-        for code, other in ((1, t_back), (2, t_top), (3, t_side)):
-            other = np.maximum(other, 0)
-            nearer = other < t
-            t = np.where(nearer, other, t)
-            choice[nearer] = code
+        t, choice, seg = next_event(scene, px, py, dx, dy, chip, geometry, edge)
         stuck = ~np.isfinite(t)          # nothing ahead (should not happen inside a closed domain)
         t[stuck] = 0.0
         if scene.alpha > 0:
@@ -275,12 +293,7 @@ def trace(scene, pos, d, pol, rng=None, weight_floor=1e-4, max_events=10000, ang
             angle[ids[esc]] = np.degrees(np.arctan2(dx[esc], dy[esc]))
         done |= esc
 
-        side = (choice == 3) & ~done
-        if scene.period is None:
-            tally["sides"][ids[side]] += w[side]
-            done |= side
-        else:
-            px[side] -= np.sign(dx[side]) * scene.period
+        side = lateral(scene, choice, done, ids, w, px, dx, tally)
 
         back = np.nonzero((choice == 1) & ~done)[0]
         if len(back):
@@ -356,6 +369,14 @@ def emitter_rays(case, layout, orientation, x0, count, rng):
     return pos, d
 
 
+def _line_job(scene, case, orientation, x0, rays, rng):
+    """One line emitter's rays: the tally and each ray's escape angle (signed, degrees)."""
+    pol = "s" if orientation == "out-of-plane" else "p"
+    pos, d = emitter_rays(case, None, orientation, x0, rays, rng)
+    r = trace(scene, pos, d, pol, rng=rng, angles_out=True)
+    return r, r["angle"]
+
+
 def run_case(case, layout, rays=20000, lateral="absorbing", seed=0):
     """Trace every (orientation, position, wavelength) of a case; combined like the FDTD jobs.
 
@@ -371,29 +392,33 @@ def run_case(case, layout, rays=20000, lateral="absorbing", seed=0):
         ``rays_for_half_percent`` (rays per job for a 0.5% relative error),
         ``rays``, ``events``, ``farfield`` (angle, intensity per degree).
     """
+    return run_jobs(case, layout, rays, lateral, seed, _line_job, np.arange(-90, 91))
+
+
+def run_jobs(case, layout, rays, lateral, seed, one_job, bins):
+    """Every (orientation, wavelength, position) job of a case through ``one_job(scene, case,
+    orientation, x0, rays, rng)`` -> (tally, escape angles), combined with equal weights; the
+    escaped power binned over ``bins`` (degrees) per degree (see :func:`run_case`)."""
     rng = np.random.default_rng(seed)
     wavelengths = case.light.wavelengths()
     per = {}
     spectrum = np.zeros(len(wavelengths))
     all_top, events = [], 0
     totals = {k: 0.0 for k in ("top", "bottom", "sides", "absorbed", "truncated")}
-    bins = np.arange(-90, 91)
     hist = np.zeros(len(bins) - 1)
     jobs = 0
     for orientation in case.emitter.orientations():
-        pol = "s" if orientation == "out-of-plane" else "p"
         tops = []
         for j, lam in enumerate(wavelengths):
             scene = scene_from_case(case, layout, lam, lateral)
             for x0 in case.emitter.x:
-                pos, d = emitter_rays(case, layout, orientation, x0, rays, rng)
-                r = trace(scene, pos, d, pol, rng=rng, angles_out=True)
+                r, angle = one_job(scene, case, orientation, x0, rays, rng)
                 for k in totals:
                     totals[k] += float(np.mean(r[k]))
                 tops.append(r["top"])
                 spectrum[j] += float(np.mean(r["top"]))
-                esc = np.isfinite(r["angle"])
-                hist += np.histogram(r["angle"][esc], bins=bins, weights=r["top"][esc])[0] / rays
+                esc = np.isfinite(angle)
+                hist += np.histogram(angle[esc], bins=bins, weights=r["top"][esc])[0] / rays
                 events += r["events"]
                 jobs += 1
         per[orientation] = float(np.mean(np.concatenate(tops)))

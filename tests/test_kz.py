@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from conftest import assert_refused, case_toml, make_case, run_cli
+from conftest import make_case
 from fdtd_cases import kz
 from fdtd_cases.case_file import parse_case
 from fdtd_cases.layout import make_layout
@@ -89,12 +89,6 @@ def test_guided_modes_become_breakpoints():
     u, _ = kz.case_rule(case, 1.0, modes)
     gaps = np.min(np.abs(u[:, None] - np.array(modes)[None, :]), axis=0)
     assert np.all(gaps > 1e-7)
-
-
-def test_point_sources_are_refused_where_they_are_not_built(tmp_path):
-    case = tmp_path / "point.toml"
-    case.write_text(case_toml(make_case(emitter={"source": "point"})))
-    assert_refused(run_cli("compare", case, "--vary", "chip.index=2:2.2:2"), "emitter.source", "compare")
 
 
 @pytest.mark.parametrize("orientation", ["parallel", "normal", "out-of-plane"])
