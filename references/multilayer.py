@@ -379,7 +379,7 @@ def emitter(stack, depth, wavelength, orientation, dim=2, angles=None, modes=Fal
 
         top += float(np.sum(wt * _escaping(stack, pol, sigma, dim, k0, k_ref, xt, depth)))
         if angles is not None:
-            theta = np.radians(np.asarray(angles, dtype=float))
+            theta = np.radians(np.minimum(np.asarray(angles, dtype=float), 90 - 1e-9))  # grazing: 0, not 0/0
             per_rad = _escaping(stack, pol, sigma, dim, k0, k_ref, k_amb * np.sin(theta), depth) * k_amb * np.cos(theta)
             spectrum = spectrum + per_rad * np.pi / 180 / (2 if dim == 2 else 1)
         bottom += _bottom(stack, pol, sigma, dim, k0, k_ref, depth, fr)

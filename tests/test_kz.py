@@ -114,3 +114,16 @@ def test_exact_kz_spectrum_integrates_to_the_3d_dipole(orientation, n_chip, dept
     assert top / emitted == pytest.approx(exact["efficiency"], rel=1e-3)
     bulk = k0 / np.pi * np.sum(w * np.array([v["bulk"] for v in values]))
     assert bulk == pytest.approx(1.0, rel=1e-3)  # the textbook pattern integrates to the dipole's power
+
+
+def test_a_point_source_on_a_perfect_mirror_is_refused_with_a_message(tmp_path):
+    """Its kz runs diverge against Meep's perfect conductor (measured: fields of 1e17 at kz = 0.935 k0
+    on a 0.35 um chip), so `check` and `run` refuse it naming both keys; the exact solver still serves."""
+    from conftest import assert_refused, case_toml, run_cli
+
+    case = tmp_path / "mirror.toml"
+    case.write_text(case_toml(make_case(chip={"index": 2.0, "thickness": 0.6, "back": "mirror"},
+                                        emitter={"depth": 0.3, "source": "point"})))
+    assert_refused(run_cli("check", case), "chip.back", "mirror", "emitter.source")
+    assert_refused(run_cli("run", case, "-o", tmp_path / "m.h5"), "chip.back", folder=tmp_path, pattern="*.h5")
+    assert run_cli("reference", case).returncode == 0
