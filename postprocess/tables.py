@@ -142,7 +142,8 @@ def format_check(facts):
            f"(without symmetry), {_human_bytes(est['memory_bytes'])}",
            f"  estimate in all    about {facts['seconds_in_all']:.0f} s on {facts['workers']} worker(s)"]
     if facts.get("collection_half_angle") is not None:
-        out.append(f"  collection         the fan within +/-{facts['collection_half_angle']:.1f} deg of the "
+        shape = "cone" if facts.get("source") == "point" else "fan"
+        out.append(f"  collection         the {shape} within +/-{facts['collection_half_angle']:.1f} deg of the "
                    "normal in the ambient (reported after the run)")
     return "\n".join(out)
 
