@@ -16,6 +16,7 @@ blocks) then fills the whole cell: it is turned off, and the run checks the
 ambient and the chip's epsilon before it starts.
 """
 
+import math
 import time
 
 import meep as mp
@@ -78,6 +79,42 @@ def monitor_lines(layout, x0):
     }
 
 
+YEE_OFFSET = {"parallel": (0.5, 0.0), "normal": (0.0, 0.5), "out-of-plane": (0.0, 0.0)}
+"""Where Meep's 2-D Yee grid keeps each orientation's source component (Ex, Ey, Ez), in cells from
+the grid lines at whole multiples of the cell size (the layout puts x = 0 and y = 0 on such lines)."""
+
+
+def lagrange_weights(t):
+    """Weights of the cubic Lagrange interpolation at nodes -1, 0, 1, 2 for a point a fraction ``t`` of
+    a cell past node 0 (0 <= t < 1); one node of weight 1 when ``t`` is 0."""
+    if abs(t) < 1e-9:
+        return {0: 1.0}
+    return {-1: -t * (t - 1) * (t - 2) / 6, 0: (t + 1) * (t - 1) * (t - 2) / 2,
+            1: -(t + 1) * t * (t - 2) / 2, 2: (t + 1) * t * (t - 1) / 6}
+
+
+def source_points(orientation, x0, y0, resolution):
+    """The emitter as grid sources: a list of (x, y, weight), each on a grid point of its component.
+
+    Meep spreads a point source that falls between two grid points of its component over the two
+    with linear weights. Along that axis the current's spectrum is then cos(k dx / 2) times the
+    true one: plane waves travelling along the split are weakened, by 4% in power at 16 points per
+    wavelength. Measured on a flat n = 2.5 chip at 16 points per chip wavelength: a dipole along y
+    split in y came out 1.9% low against the exact answer, and 0.6% high on its own grid point; a
+    dipole along z half a cell off its row 1.9% low, on it 0.0%. Cubic Lagrange weights over four
+    grid points instead (the Lagrange interpolation formula) leave the spectrum 1 - 0.023 (k dx)^4,
+    within 1e-3 of the true one for every wave the chip carries. Weights sum to 1 (the dipole's
+    moment) and are symmetric about a point halfway between two grid points (the mirror plane).
+    """
+    per_axis = []
+    for position, offset in zip((x0, y0), YEE_OFFSET[orientation]):
+        cells = position * resolution - offset
+        base = math.floor(cells + 1e-9)
+        per_axis.append([((base + node + offset) / resolution, weight)
+                         for node, weight in lagrange_weights(cells - base).items()])
+    return [(x, y, wx * wy) for x, wx in per_axis[0] for y, wy in per_axis[1]]
+
+
 def source_pulse(layout, frequency=None):
     """(centre frequency, width) of the source pulse: the band's, or a kz run's narrow one at ``frequency``."""
     if frequency is None:
@@ -116,8 +153,9 @@ def build_simulation(case, layout, orientation, x0, symmetric, kz=None, kz_mode=
         boundary = [mp.PML(layout.pml)]
     component = COMPONENTS[orientation][0]
     fcen, fwidth = source_pulse(layout, frequency)
-    sources = [mp.Source(mp.GaussianSource(fcen, fwidth=fwidth), component=component,
-                         center=mp.Vector3(x0, -layout.depth))]
+    pulse = mp.GaussianSource(fcen, fwidth=fwidth)
+    sources = [mp.Source(pulse, component=component, center=mp.Vector3(x, y), amplitude=weight)
+               for x, y, weight in source_points(orientation, x0, -layout.depth, layout.resolution)]
     symmetries = []
     if symmetric:
         symmetries = [mp.Mirror(mp.X, phase=-1 if component == mp.Ex else 1)]
