@@ -14,7 +14,7 @@ from concurrent.futures import ProcessPoolExecutor, as_completed
 import numpy as np
 from tqdm import tqdm
 
-from . import kz
+from . import kz, slab_modes
 
 
 def plan_jobs(case, layout, guided=None):
@@ -26,7 +26,8 @@ def plan_jobs(case, layout, guided=None):
     (:mod:`fdtd_cases.kz`), carrying ``wavelength``, ``kz`` (in units of k0),
     ``kz_weight`` and ``picture`` (the one node of each dipole that records a
     field picture when asked: the smallest kz at the centre wavelength); ``guided`` maps a wavelength's index to the effective
-    indices of the flat stack's guided modes there (breakpoints of the integral).
+    indices of the flat stack's guided modes there, from the exact solver: where it names any, the
+    integral breaks at the indices the grid carries them at (:mod:`fdtd_cases.slab_modes`).
     """
     jobs = [{"orientation": orientation, "x": float(x), "symmetric": bool(layout.symmetric and x == 0.0)}
             for orientation in case.emitter.orientations() for x in case.emitter.x]
@@ -35,7 +36,9 @@ def plan_jobs(case, layout, guided=None):
     nodes = []
     centre = int(np.argmin(np.abs(layout.wavelengths - 1.0 / layout.fcen)))
     for i, wavelength in enumerate(layout.wavelengths):
-        u, w = kz.case_rule(case, wavelength, (guided or {}).get(i, ()))
+        # The exact solver says whether the stack guides; the grid says where its modes are.
+        modes = slab_modes.grid_indices(case, layout, wavelength) if (guided or {}).get(i) else ()
+        u, w = kz.case_rule(case, wavelength, modes)
         nodes += [{"wavelength": float(wavelength), "kz": float(a), "kz_weight": float(b),
                    "picture": bool(i == centre and j == int(np.argmin(u)))} for j, (a, b) in enumerate(zip(u, w))]
     return [{**job, **node} for job in jobs for node in nodes]

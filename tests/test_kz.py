@@ -127,3 +127,54 @@ def test_a_point_source_on_a_perfect_mirror_is_refused_with_a_message(tmp_path):
     assert_refused(run_cli("check", case), "chip.back", "mirror", "emitter.source")
     assert_refused(run_cli("run", case, "-o", tmp_path / "m.h5"), "chip.back", folder=tmp_path, pattern="*.h5")
     assert run_cli("reference", case).returncode == 0
+
+
+GUIDING = {
+    "thin chip on a substrate": {"chip": {"index": 2.0, "thickness": 0.35, "back": "substrate", "back_index": 1.5},
+                                 "emitter": {"depth": 0.175, "source": "point"}},
+    "high-index film on an open chip": {"chip": {"index": 2.5}, "film": [{"index": 3.0, "thickness": 0.3}],
+                                        "emitter": {"depth": 0.5, "source": "point"}},
+}
+
+
+@pytest.mark.parametrize("name", list(GUIDING))
+def test_grid_modes_tend_to_the_exact_modes(name):
+    """The guided modes the Yee grid carries (fdtd_cases.slab_modes, a 1-D finite-difference
+    eigenproblem) tend to the exact solver's (references.multilayer, checked against the slab
+    dispersion relation of Saleh & Teich in test_multilayer.py) as the grid is refined, and at the
+    default grid differ by more than the quadrature's nearest nodes lie from a breakpoint: the
+    reason the runs break the integral at the grid's indices."""
+    from fdtd_cases.slab_modes import grid_indices
+    from outcouple.jobs import guided_indices
+
+    data = make_case(**GUIDING[name])
+    case = parse_case(data)
+    exact = np.array(guided_indices(case, [1.0])[0])
+    coarse = np.array(grid_indices(case, make_layout(case), 1.0))
+    fine = np.array(grid_indices(parse_case({**data, "grid": {"resolution": 256}}), make_layout(
+        parse_case({**data, "grid": {"resolution": 256}})), 1.0))
+    assert len(exact) == len(coarse) == len(fine) == 2
+    np.testing.assert_allclose(fine, exact, atol=5e-5)
+    np.testing.assert_allclose(coarse, exact, atol=3e-3)
+    if name == "thin chip on a substrate":  # measured: the s mode 1.8011 on the grid, 1.8028 exact
+        u, _ = kz.case_rule(case, 1.0, exact)
+        nearest = np.min(np.abs(u[:, None] - exact[None, :]))
+        assert np.max(np.abs(coarse - exact)) > nearest
+
+
+def test_runs_break_the_integral_at_the_grid_modes():
+    """plan_jobs cuts a guiding stack's integral at the grid's mode indices: Gauss nodes crowd
+    towards them from both sides and none falls on one; the weights still sum to the largest
+    index (the length of the interval)."""
+    from fdtd_cases.slab_modes import grid_indices
+    from outcouple.jobs import jobs_of
+
+    case = parse_case(make_case(**GUIDING["thin chip on a substrate"], light={"wavelength": 1.0}))
+    layout = make_layout(case)
+    u = np.array(sorted({job["kz"] for job in jobs_of(case, layout)}))
+    weights = sum(job["kz_weight"] for job in jobs_of(case, layout) if job["orientation"] == "parallel")
+    assert weights == pytest.approx(2.0, rel=1e-6)
+    for mode in grid_indices(case, layout, 1.0):
+        below, above = u[u < mode], u[u > mode]
+        assert mode - below.max() < 2e-3 and above.min() - mode < 2e-3
+        assert np.min(np.abs(u - mode)) > 1e-7
