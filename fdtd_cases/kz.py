@@ -23,7 +23,9 @@ Where the integrand is not smooth (derived here from the plane-wave picture):
 * at u = n_eff of every guided mode of a lossless stack: a line source
   launches the mode with in-plane wavenumber k0 sqrt(n_eff^2 - u^2), and the
   power it carries grows like 1 / sqrt(n_eff - u) below n_eff and is absent
-  above it.
+  above it. For a run, n_eff is where the grid carries the mode
+  (:mod:`fdtd_cases.slab_modes`), which differs from the exact index by more
+  than the nearest nodes lie from it.
 
 The interval [0, n_max] is therefore cut at these breakpoints and each piece
 is mapped so that square roots at its ends become smooth:
