@@ -33,7 +33,18 @@ exact there). The script therefore puts that source on an Ez point, z = dz / 2, 
 the x mirror only. Centred at z = 0 (``--ez-at-zero``) the 3-D run gave LEE 0.12814 and emitted
 0.9923 of bulk at resolution 20, Z_HALF = 6: package -2.3% and +2.8% instead of -1.0% and +0.7%.
 
-Output here (Meep 1.25, 2 cores shared with another Meep job; diff = package / 3-D - 1):
+Output here (Meep 1.25, 2 cores shared with another Meep job; diff = package / 3-D - 1), after
+both runs placed the dipole on its own grid points in x and y (fdtd_cases.meep_job.source_points):
+
+    resolution 20; width 4 (+ PML 1); top plane at y = 0.6; 3-D cell 6 x 3.9 x 14
+    orientation   z half  3-D LEE  pkg LEE    diff 3-D emit pkg emit    diff     flat  3-D s  pkg s kz runs
+    parallel           6  0.11477  0.11510  +0.29%   0.9956   0.9789  -1.67%  0.07773     18     26      15
+    normal             6  0.02089  0.02171  +3.94%   1.0291   1.0139  -1.48%  0.01203     17     24      15
+    out-of-plane       6  0.12647  0.12520  -1.00%   1.0124   1.0198  +0.72%  0.07773     46     25      15
+    normal             9  0.02089  0.02171  +3.91%   1.0291   1.0139  -1.48%  0.01203     33     24      15
+
+Before that change (Meep's own two-point spreading of the normal and parallel dipoles), and the
+discussion below, which it does not alter (the normal dipole's gap at 20 stays):
 
     resolution 20; width 4 (+ PML 1); top plane at y = 0.6; 3-D cell 6 x 3.9 x 14
     orientation   z half  3-D LEE  pkg LEE    diff 3-D emit pkg emit    diff     flat  3-D s  pkg s kz runs
@@ -81,6 +92,7 @@ import numpy as np  # noqa: E402
 
 import outcouple  # noqa: E402
 from fdtd_cases.layout import make_layout  # noqa: E402
+from fdtd_cases.meep_job import source_points  # noqa: E402
 
 RESOLUTION = 20
 WIDTH = 4.0
@@ -131,6 +143,9 @@ def run_3d(data, orientation, z_half, ez_at_zero=False):
     px, pz = PHASES[orientation]
     symmetries = [mp.Mirror(mp.X, phase=px)] + ([] if off_grid else [mp.Mirror(mp.Z, phase=pz)])
     freq = 1.0 / data["light"]["wavelength"]
+    # In x and y the 3-D Yee grid keeps Ex, Ey and Ez where the 2-D one does: the package's stencil
+    # puts the dipole on its own grid points there too (fdtd_cases.meep_job.source_points).
+    pulse = mp.GaussianSource(layout.fcen, fwidth=layout.fwidth)
     sim = mp.Simulation(
         cell_size=mp.Vector3(layout.cell_x, layout.cell_y, 2 * (z_half + layout.pml)),
         geometry_center=mp.Vector3(0, layout.y_center, 0),
@@ -138,8 +153,8 @@ def run_3d(data, orientation, z_half, ez_at_zero=False):
         boundary_layers=[mp.PML(layout.pml)],
         geometry=geometry,
         default_material=mp.Medium(index=1.0),
-        sources=[mp.Source(mp.GaussianSource(layout.fcen, fwidth=layout.fwidth), component=SOURCE[orientation],
-                           center=mp.Vector3(0, -layout.depth, z_source))],
+        sources=[mp.Source(pulse, component=SOURCE[orientation], center=mp.Vector3(x, y, z_source), amplitude=weight)
+                 for x, y, weight in source_points(orientation, 0.0, -layout.depth, layout.resolution)],
         symmetries=symmetries,
     )
     xl, xr, yl, yh = layout.contour_box(0.0)
