@@ -57,7 +57,7 @@ browser:
 	$(call service,chromium_local.sh,Chromium could not be installed)
 
 test: setup slurm mpi-meep browser
-	@$(PY) -m pytest -q -p no:cacheprovider
+	@$(PY) -m pytest -q -p no:cacheprovider --durations=15
 
 bench: setup
 	@$(PY) bench/bench_planar.py
