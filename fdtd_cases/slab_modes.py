@@ -45,13 +45,12 @@ def stack_layers(case, layout):
     return [(bottom, 0.0, case.chip.index)] + layers, lower, case.ambient.index
 
 
-def _averaged(rows, dx, layers, lower, upper, bottom):
-    """Arithmetic and harmonic means of eps over the cell of each row."""
+def _averaged(rows, dx, pieces):
+    """Arithmetic and harmonic means of eps over the cell of each row; ``pieces``: (y_low, y_high, index) covering all y."""
     eps = np.zeros(len(rows))
     inverse = np.zeros(len(rows))
     for i, y in enumerate(rows):
         lo, hi = y - dx / 2, y + dx / 2
-        pieces = [(-np.inf, bottom, lower), *layers, (max(b for _, b, _ in layers), np.inf, upper)]
         for a, b, n in pieces:
             overlap = max(0.0, min(hi, b) - max(lo, a))
             eps[i] += overlap * n * n
@@ -76,13 +75,14 @@ def grid_indices(case, layout, wavelength):
     last = int(np.ceil((top + MARGIN * wavelength) * layout.resolution))
     rows = np.arange(first, last + 1) * dx
     half = rows[:-1] + dx / 2
+    pieces = [(-np.inf, bottom, lower), *layers, (top, np.inf, upper)]
 
-    eps_t, _ = _averaged(rows, dx, layers, lower, upper, bottom)
+    eps_t, _ = _averaged(rows, dx, pieces)
     s_modes = eigh_tridiagonal(-2 / dx ** 2 + big_omega ** 2 * eps_t, np.full(len(rows) - 1, 1 / dx ** 2),
                                eigvals_only=True)
 
-    _, eps_y = _averaged(half, dx, layers, lower, upper, bottom)
-    eps_z, _ = _averaged(rows[1:-1], dx, layers, lower, upper, bottom)
+    _, eps_y = _averaged(half, dx, pieces)
+    eps_z, _ = _averaged(rows[1:-1], dx, pieces)
     w = 1 / (eps_z * dx ** 2)
     diagonal = np.zeros(len(half))
     diagonal[:-1] += w

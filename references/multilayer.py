@@ -380,9 +380,10 @@ def emitter(stack, depth, wavelength, orientation, dim=2, angles=None, modes=Fal
         top += float(np.sum(wt * _escaping(stack, pol, sigma, dim, k0, k_ref, xt, depth)))
         if angles is not None:
             # Grazing carries nothing (cos = 0); evaluated 1e-4 degree inside, not at 0/0 (sin(90 - 1e-9 degrees) is 1).
-            theta = np.radians(np.minimum(np.asarray(angles, dtype=float), 90 - 1e-4))
+            degrees = np.asarray(angles, dtype=float)
+            theta = np.radians(np.minimum(degrees, 90 - 1e-4))
             per_rad = _escaping(stack, pol, sigma, dim, k0, k_ref, k_amb * np.sin(theta), depth) * k_amb * np.cos(theta)
-            per_rad = np.where(np.abs(np.asarray(angles, dtype=float)) >= 90, 0.0, per_rad)
+            per_rad = np.where(np.abs(degrees) >= 90, 0.0, per_rad)
             spectrum = spectrum + per_rad * np.pi / 180 / (2 if dim == 2 else 1)
         bottom += _bottom(stack, pol, sigma, dim, k0, k_ref, depth, fr)
 

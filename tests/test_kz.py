@@ -151,8 +151,8 @@ def test_grid_modes_tend_to_the_exact_modes(name):
     case = parse_case(data)
     exact = np.array(guided_indices(case, [1.0])[0])
     coarse = np.array(grid_indices(case, make_layout(case), 1.0))
-    fine = np.array(grid_indices(parse_case({**data, "grid": {"resolution": 256}}), make_layout(
-        parse_case({**data, "grid": {"resolution": 256}})), 1.0))
+    refined = parse_case({**data, "grid": {"resolution": 256}})
+    fine = np.array(grid_indices(refined, make_layout(refined), 1.0))
     assert len(exact) == len(coarse) == len(fine) == 2
     np.testing.assert_allclose(fine, exact, atol=5e-5)
     np.testing.assert_allclose(coarse, exact, atol=3e-3)
