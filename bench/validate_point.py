@@ -17,6 +17,7 @@ a group name, or a part of a case's name; none runs all.
     .venv/bin/python bench/validate_point.py guided      # the guided-mode chips only
     .venv/bin/python bench/validate_point.py "n = 2.5"   # cases whose name contains "n = 2.5"
     .venv/bin/python bench/validate_point.py flat ppw=24 # a finer grid than the default 16
+    .venv/bin/python bench/validate_point.py flat width=16  # a wider domain (grid.width, um)
 """
 
 import sys
@@ -79,8 +80,9 @@ def cost(runs, elapsed):
 
 def main(args):
     grid = {}
-    for arg in [a for a in args if a.startswith("ppw=")]:
-        grid = {"points_per_wavelength": float(arg[4:])}
+    for arg in [a for a in args if a.startswith(("ppw=", "width="))]:
+        key, value = arg.split("=")
+        grid[{"ppw": "points_per_wavelength", "width": "width"}[key]] = float(value)
         args = [a for a in args if a != arg]
     print(f"{'case':<50} {'orientation':<13} {'source':<6} {'runs':>5} {'FDTD':>8} {'exact':>8} {'diff':>8}")
     for name, data in chosen(args).items():
