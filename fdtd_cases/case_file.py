@@ -4,6 +4,8 @@ Every problem pydantic finds becomes one line naming the source, the dotted
 key and what is allowed (:class:`fdtd_cases.errors.CaseError`).
 """
 
+import difflib
+import math
 import tomllib
 from pathlib import Path
 from typing import get_args, get_origin
@@ -49,8 +51,12 @@ def _describe(error, surface_pattern):
                    "random": Random, "profile": Profile}[surface_pattern]
         else:
             cls = _table_class(loc)
-        allowed = ", ".join(cls.model_fields) if cls is not None else ""
-        return key, f"unknown key; allowed here: {allowed}" if allowed else "unknown key"
+        if cls is None:
+            return key, "unknown key"
+        allowed = list(cls.model_fields)
+        close = difflib.get_close_matches(str(loc[-1]), allowed, n=1, cutoff=0.6)
+        hint = f"did you mean {close[0]}? " if close else ""
+        return key, f"unknown key; {hint}allowed here: {', '.join(allowed)}"
     if kind == "missing":
         return key, "required key is missing"
     if kind == "union_tag_invalid" or kind == "union_tag_not_found":
@@ -62,6 +68,56 @@ def _describe(error, surface_pattern):
     if kind.endswith("_type"):
         message = f"{message} (got {type(error.get('input')).__name__} {error.get('input')!r})"
     return key, message
+
+
+WAVELENGTH_RANGE = (0.1, 20.0)
+"""Vacuum wavelengths a case may give, µm: deep ultraviolet to the mid-infrared. Outside it a
+number is far likelier a unit slip (450 for 450 nm, 4.5e-7 for metres) than a real light source."""
+
+PROPORTION = (1e-3, 5e3)
+"""Lengths a case may give, in centre wavelengths: a thousandth (0.45 nm at 450 nm) to five
+thousand (2.25 mm at 450 nm, beyond the thickest chips of 50-500 µm). Outside it the length was
+almost surely written in another unit."""
+
+
+def _lengths(case):
+    """(dotted key, value) of every length a case gives, µm (the chip's back side only when finite)."""
+    out = [("emitter.depth", case.emitter.depth)]
+    out += [(f"emitter.x[{i}]", abs(x)) for i, x in enumerate(case.emitter.x) if x != 0]
+    out += [(f"film[{i}].thickness", film.thickness) for i, film in enumerate(case.film)]
+    if math.isfinite(case.chip.thickness):
+        out.append(("chip.thickness", case.chip.thickness))
+    for name in ("period", "height", "rms", "correlation"):
+        if getattr(case.surface, name, None) is not None:
+            out.append((f"surface.{name}", getattr(case.surface, name)))
+    for name in ("emitter.contour", "grid.width", "grid.pml"):
+        table, key = name.split(".")
+        if getattr(getattr(case, table), key) is not None:
+            out.append((name, getattr(getattr(case, table), key)))
+    return out
+
+
+def _check_units(case, source):
+    """Refuse wavelengths and lengths that look like a unit slip (the case file is in µm)."""
+    lam = case.light.wavelength
+    low, high = WAVELENGTH_RANGE
+    if lam > high:
+        raise CaseError(source, "light.wavelength", f"is {lam:g}; case files are in µm, and this looks like "
+                        f"nanometres ({lam:g} nm would be wavelength = {lam / 1000:g}); wavelengths from {low:g} "
+                        f"to {high:g} µm are accepted")
+    if lam < low:
+        raise CaseError(source, "light.wavelength", f"is {lam:g}; case files are in µm, and this looks like "
+                        f"metres or millimetres; wavelengths from {low:g} to {high:g} µm are accepted")
+    small, large = PROPORTION
+    for key, value in _lengths(case):
+        if value > large * lam:
+            raise CaseError(source, key, f"is {value:g} µm, {value / lam:.3g} wavelengths (light.wavelength = "
+                            f"{lam:g} µm); case files are in µm, and this looks like nanometres ({value:g} nm "
+                            f"would be {value / 1000:g}); lengths up to {large:g} wavelengths are accepted")
+        if value < small * lam:
+            raise CaseError(source, key, f"is {value:g} µm, {value / lam:.3g} wavelengths (light.wavelength = "
+                            f"{lam:g} µm); case files are in µm, and this looks like metres or millimetres; "
+                            f"lengths down to {small:g} wavelengths are accepted")
 
 
 def parse_case(data, source="case"):
@@ -85,6 +141,7 @@ def parse_case(data, source="case"):
             rest = "\n".join(f"  {source}: {k}: {m}" for k, m in lines[1:])
             message = f"{message}\n{rest}"
         raise CaseError(source, key, message) from None
+    _check_units(case, source)
     depth, thickness = case.emitter.depth, case.chip.thickness
     if depth >= thickness:
         raise CaseError(source, "emitter.depth", f"is {depth:g} µm, not inside the chip "

@@ -184,6 +184,24 @@ def _period(surface):
     return getattr(surface, "period", None) or getattr(surface, "correlation", 0.0)
 
 
+OPAQUE = 5.0
+"""alpha x thickness above which a layer warns: exp(-5) = 0.7% of the light survives one pass."""
+
+
+def _warn_opaque(case, warnings):
+    """Warn where almost nothing survives one pass through the chip or a film (a unit slip, usually)."""
+    layers = [("chip", case.chip)] + [(f"film[{i}]", film) for i, film in enumerate(case.film)]
+    for name, layer in layers:
+        if not math.isfinite(layer.thickness):
+            continue
+        optical = layer.alpha_per_um * layer.thickness
+        if optical > OPAQUE:
+            warnings.append((f"{name}.alpha", f"is {layer.alpha:g} /cm over {name}.thickness = {layer.thickness:g} "
+                                              f"µm: alpha x thickness = {optical:.3g}, so exp(-{optical:.3g}) = "
+                                              f"{math.exp(-optical):.2g} of the light survives one pass; alpha "
+                                              "is in 1/cm (a value per metre is 100 times too large)"))
+
+
 def make_layout(case, source="case", fdtd=True):
     """Derive the grid-aligned domain of ``case`` and check what needs the grid.
 
@@ -256,6 +274,7 @@ def make_layout(case, source="case", fdtd=True):
         raise CaseError(source, "chip.back", 'is "mirror" with emitter.source = "point": the kz runs of a point '
                         "source diverge against the perfect mirror in this Meep version; use a line source, or "
                         "'outcouple reference' and 'outcouple rays' for the point dipole")
+    _warn_opaque(case, warnings)
     films = _films(case, source, resolution, warnings, fdtd)
     film_top = films[-1][1] if films else 0.0
     y_top = snap_up(film_top + max(TOP_GAP * lam_max, 2 * cell), resolution)

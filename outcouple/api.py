@@ -139,7 +139,20 @@ def check(case):
         "collection_half_angle": case.collection.degrees(case.ambient.index) if case.collection else None,
         "warnings": list(layout.warnings),
     })
+    if case.sweep is not None:
+        facts["sweep"] = _sweep_facts(case)
     return facts
+
+
+def _sweep_facts(case):
+    """The case's [sweep] validated as ``outcouple sweep`` would (every point with its grid): its size."""
+    from . import sweeps
+
+    source, text = case._origin
+    data = case.model_dump(exclude_none=True) if text is None else tomllib.loads(text)
+    the_plan = sweeps.plan(data, source)
+    return {"points": len(the_plan["points"]), "jobs": sum(len(p["jobs"]) for p in the_plan["points"]),
+            "axes": [axis["key"] for axis in the_plan["axes"]], "mode": the_plan["mode"]}
 
 
 def run(case, workers=None, fields=False, progress=True, output=None, na=None):

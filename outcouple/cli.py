@@ -56,7 +56,7 @@ def cmd_run(args):
         _json(result.to_dict())
     else:
         print(tables.format_report(result.to_dict(), f"{args.case}: {result.attrs['jobs']} job(s) in "
-                                                     f"{result.attrs['elapsed']:.1f} s -> {out}"))
+                                                     f"{tables.duration(result.attrs['elapsed'])} -> {out}"))
     return 0
 
 

@@ -11,6 +11,7 @@ only when everything has run.
 
 import copy
 import csv
+import difflib
 import math
 import sys
 import tomllib
@@ -52,16 +53,34 @@ def case_with(data, key, value, source):
     return parse_case(with_value(data, key, value, source), source=f"{source} (with {key} = {value:g})")
 
 
-def with_value(data, key, value, source):
-    """A copy of the case dict ``data`` with the dotted ``key`` (one the file gives) set to ``value``."""
+def numeric_keys(data, prefix=""):
+    """The dotted keys of every number a case dict gives (what compare and a sweep can vary)."""
+    keys = []
+    for name, value in data.items():
+        if isinstance(value, dict):
+            keys += numeric_keys(value, f"{prefix}{name}.")
+        elif isinstance(value, (int, float)) and not isinstance(value, bool):
+            keys.append(f"{prefix}{name}")
+    return keys
+
+
+def with_value(data, key, value, source, label=None, who="compare varies"):
+    """A copy of the case dict ``data`` with the dotted ``key`` (one the file gives) set to ``value``.
+
+    A key the file does not give is refused under ``label`` (default: the key itself), in the words
+    of the caller (``who``), with the closest key the file does give.
+    """
     parts = key.split(".")
     changed = copy.deepcopy(data)
     table = changed
     for part in parts[:-1]:
         table = table.get(part) if isinstance(table, dict) else None
     if not isinstance(table, dict) or parts[-1] not in table or isinstance(table[parts[-1]], (dict, list)):
-        raise CaseError(source, key, "is not set in the case file; compare varies a number the file already "
-                        "gives (a dotted key such as surface.period; arrays of tables cannot be varied)")
+        given = [k for k in numeric_keys(data) if not k.startswith("sweep.")]
+        close = difflib.get_close_matches(key, given, n=1, cutoff=0.6)
+        hint = f"did you mean {close[0]}? " if close else ""
+        raise CaseError(source, label or key, f"is not set in the case file; {hint}{who} a number the file "
+                        "already gives (a dotted key such as surface.period; arrays of tables cannot be varied)")
     table[parts[-1]] = float(value)
     return changed
 

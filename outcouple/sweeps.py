@@ -43,6 +43,25 @@ MODES = ("grid", "zip")
 PLAN = "plan.json"
 
 
+RANGE_KEYS = {"start", "stop", "count"}
+
+
+def _dotted(table, prefix=""):
+    """The [sweep] table with nested tables flattened to dotted keys.
+
+    TOML reads ``surface.period = [...]`` (unquoted) as a table ``surface`` holding ``period``;
+    ``"surface.period" = [...]`` (quoted) is one key. Both mean the same axis. A table holding any
+    of start, stop and count is a range, not a level of nesting.
+    """
+    flat = {}
+    for name, spec in table.items():
+        if isinstance(spec, dict) and not RANGE_KEYS & set(spec):
+            flat.update(_dotted(spec, f"{prefix}{name}."))
+        else:
+            flat[f"{prefix}{name}"] = spec
+    return flat
+
+
 def parse_sweep(data, source):
     """The ``[sweep]`` table of a case dict: (axes [(key, values), ...], mode).
 
@@ -53,7 +72,7 @@ def parse_sweep(data, source):
     table = data.get("sweep")
     if not isinstance(table, dict) or not table:
         raise CaseError(source, "sweep", "is missing: a sweep needs a [sweep] table of dotted keys and values")
-    table = dict(table)
+    table = _dotted(table)
     mode = table.pop("mode", "grid")
     if mode not in MODES:
         raise CaseError(source, "sweep.mode", f'must be "grid" or "zip", not {mode!r}')
@@ -111,7 +130,8 @@ def plan(data, source):
     for values in points_of(axes, mode):
         point = base
         for key, value in values.items():
-            point = with_value(point, key, value, f"{source}: [sweep]")
+            point = with_value(point, key, value, source, label=f"sweep.{key}" if "." not in key else
+                               f'sweep."{key}"', who="a sweep varies")
         where = f"{source} (at {_label(values)})"
         case = parse_case(point, source=where)
         layout = make_layout(case, source=where)

@@ -52,6 +52,10 @@ def format_report(summary, title):
     if summary["balance_error"] is not None:
         out.append(f"    balance error (lossless: |emitted - top - bottom - sides| / emitted) "
                    f"{summary['balance_error']:.4f}")
+    if ref and b["sides"] > 0.01 and ref["budget"]["sides"] < 0.5 * b["sides"]:
+        out += ["    FDTD sides vs exact bottom: the exact stack is unbounded, so all light going down is bottom;",
+                f"    the finite FDTD domain counts what leaves through its lateral monitors as sides (bottom + "
+                f"sides {b['bottom'] + b['sides']:.4f} against {ref['budget']['bottom'] + ref['budget']['sides']:.4f})"]
     out.append(f"  emission factor (emitted / bulk power, mean) {summary['emission_factor']:.4f}"
                + (f"   exact {ref['emission_factor']:.4f}" if ref else ""))
     if summary.get("point_dipole_baseline") is not None:
@@ -111,6 +115,15 @@ def _farfield_lines(summary):
     return out
 
 
+def duration(seconds):
+    """A time span as people read it: seconds below two minutes, minutes below two hours, else hours."""
+    if seconds < 120:
+        return f"{seconds:.0f} s" if seconds >= 10 else f"{seconds:.1f} s"
+    if seconds < 7200:
+        return f"{seconds / 60:.0f} min"
+    return f"{seconds / 3600:,.1f} h"
+
+
 def _human_bytes(n):
     return f"{n / 2**20:.0f} MiB" if n < 2**30 else f"{n / 2**30:.1f} GiB"
 
@@ -138,9 +151,13 @@ def format_check(facts):
            f"sides x = +/-{facts['x_side']:.3f} um, emitter contour half-width {facts['contour']:.3f} um",
            f"  jobs               {facts['jobs']} ({', '.join(facts['orientations'])} x {facts['positions']} "
            f"position(s){_kz_runs(facts)}); mirror symmetry: {'yes (x = 0 jobs)' if facts['symmetric'] else 'no'}",
-           f"  estimate per job   about {est['time_steps']:,} time steps, {est['seconds']:.0f} s "
+           f"  estimate per job   about {est['time_steps']:,} time steps, {duration(est['seconds'])} "
            f"(without symmetry), {_human_bytes(est['memory_bytes'])}",
-           f"  estimate in all    about {facts['seconds_in_all']:.0f} s on {facts['workers']} worker(s)"]
+           f"  estimate in all    about {duration(facts['seconds_in_all'])} on {facts['workers']} worker(s)"]
+    if facts.get("sweep"):
+        sweep = facts["sweep"]
+        out.append(f"  sweep              valid: {sweep['points']} point(s) ({sweep['mode']} of "
+                   f"{', '.join(sweep['axes'])}), {sweep['jobs']} job(s) in all; the lines above are the base case")
     if facts.get("collection_half_angle") is not None:
         shape = "cone" if facts.get("source") == "point" else "fan"
         out.append(f"  collection         the {shape} within +/-{facts['collection_half_angle']:.1f} deg of the "

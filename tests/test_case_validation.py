@@ -3,6 +3,10 @@
 import pytest
 
 from conftest import CONFIGS, assert_refused, case_toml, make_case, run_cli
+from fdtd_cases.case_file import parse_case
+from fdtd_cases.errors import CaseError
+from fdtd_cases.layout import make_layout
+from postprocess.tables import duration
 
 GOOD = case_toml(make_case(light={"wavelength": 0.9}, chip={"index": 2.4},
                            surface={"pattern": "grating", "period": 0.6, "height": 0.15, "fill": 0.5},
@@ -11,7 +15,11 @@ INDEX_LINE = GOOD.splitlines().index("index = 2.4") + 1
 """Where the TOML syntax error below is (tomllib reports it as '(at line N, column M)')."""
 
 BAD = {
-    "unknown key": (GOOD.replace("fill = 0.5", "fil = 0.5"), "surface.fil", "allowed here"),
+    "unknown key": (GOOD.replace("fill = 0.5", "fil = 0.5"), "surface.fil", "did you mean fill?"),
+    "wavelength in nanometres": (GOOD.replace("wavelength = 0.9", "wavelength = 900"), "light.wavelength",
+                                 "looks like nanometres"),
+    "length in nanometres": (GOOD.replace("period = 0.6", "period = 6000"), "surface.period",
+                             "looks like nanometres"),
     "wrong type": (GOOD.replace("index = 2.4", 'index = "high"'), "chip.index", "valid number"),
     "negative length": (GOOD.replace("period = 0.6", "period = -0.6"), "surface.period", "greater than 0"),
     "zero length": (GOOD.replace("depth = 0.5", "depth = 0"), "emitter.depth", "greater than 0"),
@@ -136,3 +144,58 @@ def test_report_and_converge_refuse_bad_input(tmp_path):
         assert_refused(result, "--resolutions")
     result = run_cli("converge", CONFIGS / "flat_check.toml", "--resolutions", "10,20")
     assert_refused(result, "--resolutions", "fewer than 8")
+
+
+# Unit slips (issue: numbers a newcomer can trust). The case file is in µm and alpha in 1/cm;
+# each rule below is the package's own (fdtd_cases.case_file, fdtd_cases.layout), not physics.
+SLIPS = {
+    "wavelength in metres": ({"light": {"wavelength": 9e-7}}, "light.wavelength", "metres"),
+    "wavelength in nm, lengths in um": ({"light": {"wavelength": 450.0}, "emitter": {"depth": 0.5}},
+                                        "light.wavelength", "nanometres"),
+    "depth in nm": ({"light": {"wavelength": 0.45}, "emitter": {"depth": 5000.0}}, "emitter.depth", "nanometres"),
+    "film in metres": ({"film": [{"index": 1.5, "thickness": 1e-7}]}, "film[0].thickness", "metres"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(SLIPS))
+def test_unit_slips_are_refused_with_the_unit(name):
+    tables, key, words = SLIPS[name]
+    with pytest.raises(CaseError) as caught:
+        parse_case(make_case(**tables), source="slip.toml")
+    assert caught.value.key == key and words in caught.value.message and "µm" in caught.value.message
+
+
+def test_lengths_in_proportion_pass():
+    """The thickest chips of the trade (500 µm at 450 nm, 1111 wavelengths) and thin films (5 nm) pass."""
+    case = parse_case(make_case(light={"wavelength": 0.45}, chip={"thickness": 500.0},
+                                film=[{"index": 1.5, "thickness": 0.005}]))
+    assert case.chip.thickness == 500.0
+
+
+def test_opaque_chip_warns_with_both_keys_and_the_unit():
+    """alpha x thickness above 5: exp(-5) = 0.7% survives one pass (Beer-Lambert). 4e2 is a value per
+    metre written where 1/cm is meant (4 /cm): on a 500 µm chip 4e2 /cm gives 20, 4 /cm gives 0.2."""
+    def warnings(alpha):
+        case = parse_case(make_case(light={"wavelength": 1.0}, chip={"thickness": 500.0, "alpha": alpha},
+                                    emitter={"depth": 0.5}))
+        return dict(make_layout(case, fdtd=False).warnings)
+    message = warnings(4e2)["chip.alpha"]
+    assert "chip.thickness" in message and "1/cm" in message and "= 20" in message
+    assert "chip.alpha" not in warnings(4.0)
+
+
+def test_time_estimates_read_as_people_read_them():
+    assert [duration(s) for s in (4.2, 42, 150, 5400, 109449)] == ["4.2 s", "42 s", "2 min", "90 min", "30.4 h"]
+
+
+def test_check_validates_the_sweep_table(tmp_path):
+    """check reads [sweep] as 'outcouple sweep' does: a misspelled key is refused in the sweep's words,
+    with the closest key the file gives; unquoted dotted keys (TOML nesting) mean the same axis."""
+    case = tmp_path / "sweep_case.toml"
+    case.write_text(GOOD + "[sweep]\nsurface.perod = [0.5, 0.6]\n")
+    result = run_cli("check", case)
+    assert_refused(result, "sweep_case.toml", 'sweep."surface.perod"', "a sweep varies", "did you mean surface.period?")
+    case.write_text(GOOD + '[sweep]\nsurface.period = [0.5, 0.6]\n"emitter.depth" = [0.5, 0.6, 0.7]\n')
+    result = run_cli("check", case)
+    assert result.returncode == 0, result.stderr
+    assert "6 point(s)" in result.stdout and "surface.period, emitter.depth" in result.stdout
