@@ -125,6 +125,9 @@ def summarise(jobs, wavelengths, lossless):
     total = {k: sum(s[k] for s in scaled) for k in keys}           # per wavelength
     grand = {k: float(np.sum(total[k])) for k in keys}
     budget = _budget(**grand)
+    balance = abs(budget["absorbed"]) if lossless else None
+    if lossless:  # nothing can absorb: the residual is the balance error, not an absorbed fraction
+        budget["absorbed"] = 0.0
     by_orientation = {}
     for orientation in dict.fromkeys(job["orientation"] for job in jobs):
         chosen = [s for s, job in zip(scaled, jobs) if job["orientation"] == orientation]
@@ -133,6 +136,8 @@ def summarise(jobs, wavelengths, lossless):
     per_job = []
     for s, job in zip(scaled, jobs):
         b = _budget(*(float(np.sum(s[k])) for k in keys))
+        if lossless:
+            b["absorbed"] = 0.0
         per_job.append({
             "orientation": job["orientation"], "x": job["x"],
             "efficiency": b["top"], "budget": b,
@@ -145,7 +150,7 @@ def summarise(jobs, wavelengths, lossless):
         "wavelengths": [float(w) for w in wavelengths],
         "by_orientation": by_orientation,
         "budget": budget,
-        "balance_error": abs(budget["absorbed"]) if lossless else None,
+        "balance_error": balance,
         "emission_factor": grand["emitted"] / (len(jobs) * len(wavelengths)),
         "jobs": per_job,
     }

@@ -43,6 +43,21 @@ def test_power_weighting_is_sum_over_sum_not_mean_of_ratios():
     assert s["balance_error"] == pytest.approx(0.0, abs=1e-15)
 
 
+def test_lossless_budget_reports_its_residual_as_balance_error_not_absorption():
+    """Poynting's theorem: without loss nothing is absorbed. A residual of the flux lines (here 0.8%
+    of the emitted power, as a finite grid leaves) is the balance error; absorbed is exactly 0.
+    With loss the same residual is the absorbed fraction and there is no balance error."""
+    wl = np.array([1.0])
+    job = {"orientation": "normal", "x": 0.0, "bulk": np.array([1.0]),
+           "fluxes": {"top": np.array([0.2]), "bottom": np.array([0.6]), "sides": np.array([0.208]),
+                      "emitted": np.array([1.0])}}
+    s = summarise([job], wl, lossless=True)
+    assert s["budget"]["absorbed"] == 0.0 and s["jobs"][0]["budget"]["absorbed"] == 0.0
+    assert s["balance_error"] == pytest.approx(0.008)
+    lossy = summarise([job], wl, lossless=False)
+    assert lossy["budget"]["absorbed"] == pytest.approx(-0.008) and lossy["balance_error"] is None
+
+
 def test_bulk_power_closed_form_ratios():
     """In 2-D the in-plane line current radiates half the out-of-plane power (Im G_xx(0) = 1/8 vs
     Im G_zz(0) = 1/4 for G = (i/4) H0(kr)); power grows as omega |I|^2."""

@@ -47,4 +47,11 @@ def test_run_json_hdf5_and_show(tmp_path):
     assert again["efficiency"] == pytest.approx(summary["efficiency"], rel=1e-12)
     text = run_cli("show", out)
     assert "exact" in text.stdout and "power budget" in text.stdout
+    # Lossless: absorbed is exactly 0 and the residual is the balance error (Poynting's theorem).
+    assert summary["budget"]["absorbed"] == 0.0
+    # The open half-space sends light down through the lateral monitors: the table says why the
+    # FDTD's bottom + sides is the exact bottom, and the two sums agree (energy conservation).
+    assert "FDTD sides vs exact bottom" in text.stdout
+    b, e = summary["budget"], summary["reference"]["budget"]
+    assert b["bottom"] + b["sides"] == pytest.approx(e["bottom"] + e["sides"], abs=0.02)
     assert not list(tmp_path.glob("*partial*"))
