@@ -23,6 +23,7 @@ from pathlib import Path
 
 import outcouple
 from outcouple import CaseError, ResultFileError, __version__
+from outcouple.grid_convergence import DEFAULT_FACTORS, FINER_FACTORS, MIN_PPW_ERROR
 from postprocess import tables
 
 EXIT_INPUT = 2
@@ -159,6 +160,12 @@ def cmd_converge(args):
     return 0
 
 
+def _factors(factors):
+    """(0.8, 1.0, 1.25) -> "0.8, 1 and 1.25" (help texts follow the constants, not a copy of them)."""
+    words = [f"{f:g}" for f in factors]
+    return ", ".join(words[:-1]) + " and " + words[-1]
+
+
 def _resolution_list(text):
     try:
         values = [float(v) for v in text.split(",")]
@@ -276,7 +283,9 @@ def build_parser():
     p = sub.add_parser("converge", help="the case at two or three resolutions, extrapolated, with a verdict")
     p.add_argument("case", help="TOML case file")
     p.add_argument("--resolutions", type=_resolution_list, metavar="R1,R2[,R3]",
-                   help="points per um (default: 0.8, 1 and 1.25 times the case's)")
+                   help=f"points per um (default: {_factors(DEFAULT_FACTORS)} times the case's; "
+                        f"{_factors(FINER_FACTORS)} where the coarsest would fall below {MIN_PPW_ERROR} "
+                        "points per wavelength)")
     p.add_argument("--tolerance", type=_fraction, default=0.02,
                    help="relative error of the case's resolution that counts as converged (default 0.02)")
     p.add_argument("--workers", type=_positive_int, help="worker processes (default: number of cores)")
