@@ -5,6 +5,8 @@ back text; none computes a number of its own (the numbers are computed, and
 tested, where the dict is made).
 """
 
+import textwrap
+
 import numpy as np
 
 from fdtd_cases.case import CATEGORIES
@@ -202,8 +204,10 @@ def format_reference(result):
     if line["guided_modes"] and any(line["guided_modes"].values()):
         out.append(f"\n  guided modes excited at {line['wavelengths'][0]:g} um (effective indices):")
         for pol, label in (("s", "s (E along z)"), ("p", "p (H along z)")):
-            if line["guided_modes"].get(pol):
-                out.append(f"    {label}: " + ", ".join(f"{n:.4f}" for n in line["guided_modes"][pol]))
+            modes = line["guided_modes"].get(pol)
+            if modes:
+                text = f"{label}, {len(modes)} mode(s): " + ", ".join(f"{n:.4f}" for n in modes)
+                out.append(textwrap.fill(text, width=100, initial_indent="    ", subsequent_indent="      "))
     out.append(f"\n  method: {result['method']}")
     return "\n".join(out)
 

@@ -105,3 +105,21 @@ def test_line_runs_carry_the_point_dipole_baseline_of_reference(tmp_path):
     assert baseline == pytest.approx(flat["point_dipole"]["efficiency"], rel=1e-12)
     cone = flat["escape_cone"]["point_dipole"]["with_fresnel"]
     assert baseline == pytest.approx(cone, rel=0.03), f"deep emitter: {baseline:.5f} vs escape cone {cone:.5f}"
+
+
+def test_many_guided_modes_print_wrapped_with_their_count(tmp_path):
+    """A 3 µm chip on a mirror at 0.45 µm guides about 30 modes per polarisation. Their number is the
+    slab's: about 2 d sqrt(n^2 - 1) / lambda = 29.8 (the mode count of a mirror-backed slab, Saleh &
+    Teich, from memory); the table gives the count and wraps the indices instead of one long line."""
+    case = tmp_path / "thick.toml"
+    case.write_text(case_toml(make_case(light={"wavelength": 0.45}, chip={"index": 2.45, "thickness": 3.0,
+                                                                         "back": "mirror"},
+                                        emitter={"depth": 1.0})))
+    text = run_cli("reference", case)
+    assert text.returncode == 0, text.stderr
+    modes = json.loads(run_cli("reference", case, "--json").stdout)["guided_modes"]
+    for pol in ("s", "p"):
+        assert abs(len(modes[pol]) - 2 * 3.0 * math.sqrt(2.45 ** 2 - 1) / 0.45) < 1.5
+        assert f"{len(modes[pol])} mode(s)" in text.stdout
+    listed = text.stdout.split("effective indices):")[1].split("method:")[0].strip().splitlines()
+    assert len(listed) >= 4 and max(len(row) for row in listed) <= 100
