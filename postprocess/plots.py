@@ -20,6 +20,13 @@ CHIP_COLOUR = "#c9b27c"
 AMBIENT_COLOUR = "#eef4f8"
 MONITOR_COLOUR = "#1f5f8b"
 EMITTER_COLOUR = "#b3261e"
+"""Curves of the other pictures (FDTD, rays, cuts)."""
+
+# The structure picture has a look of its own: absorbing layers as a shaded violet band (no
+# hatching), flux lines dashed amber, emitters green diamonds edged in black.
+ABSORBER_COLOUR = "#6d5a9c"
+FLUX_LINE_COLOUR = "#c8730a"
+EMITTER_MARK = {"marker": "D", "color": "#0b7a5c", "mec": "black", "mew": 0.6, "ms": 6}
 FILM_COLOURS = ("#7fb3a6", "#a6c98f", "#d9a0b8")
 SUBSTRATE_COLOUR = "#9fa8c7"
 REFERENCE_COLOUR = "#3b3b3b"
@@ -49,24 +56,25 @@ def plot_structure(layout, emitter_x, path, title=""):
     if layout.mirror_y is not None:
         ax.fill_between([x0, x1], y0, layout.mirror_y, color="#7a7a7a", zorder=2, label="mirror")
     p = layout.pml
-    for rect in ((x0, y0, p, y1 - y0), (x1 - p, y0, p, y1 - y0), (x0, y1 - p, x1 - x0, p)) + \
-            (((x0, y0, x1 - x0, p),) if layout.bottom_pml else ()):
-        ax.add_patch(plt.Rectangle(rect[:2], rect[2], rect[3], fill=False, hatch="///", edgecolor="#999999",
-                                   linewidth=0, zorder=3))
+    rects = ((x0, y0, p, y1 - y0), (x1 - p, y0, p, y1 - y0), (x0, y1 - p, x1 - x0, p)) + \
+        (((x0, y0, x1 - x0, p),) if layout.bottom_pml else ())
+    for i, rect in enumerate(rects):
+        ax.add_patch(plt.Rectangle(rect[:2], rect[2], rect[3], color=ABSORBER_COLOUR, alpha=0.22, linewidth=0,
+                                   zorder=3, label="absorbing layers" if i == 0 else None))
     xs, yt, yb = layout.x_side, layout.y_top, layout.y_bottom
-    ax.plot([-xs, xs, xs, -xs, -xs], [yt, yt, yb, yb, yt], color=MONITOR_COLOUR, lw=1.2, zorder=4,
-            label="flux monitors")
+    ax.plot([-xs, xs, xs, -xs, -xs], [yt, yt, yb, yb, yt], color=FLUX_LINE_COLOUR, lw=1.2, ls="--", zorder=4,
+            label="flux lines")
     for x in emitter_x:
         xl, xr, yl, yh = layout.contour_box(x)
-        ax.plot([xl, xr, xr, xl, xl], [yh, yh, yl, yl, yh], color=MONITOR_COLOUR, lw=0.8, zorder=4)
-        ax.plot([x], [-layout.depth], marker="*", color=EMITTER_COLOUR, ms=9, zorder=5,
-                label="emitter" if x == emitter_x[0] else None)
+        ax.plot([xl, xr, xr, xl, xl], [yh, yh, yl, yl, yh], color=FLUX_LINE_COLOUR, lw=0.8, ls="--", zorder=4)
+        ax.plot([x], [-layout.depth], zorder=5, ls="none", label="emitter" if x == emitter_x[0] else None,
+                **EMITTER_MARK)
     ax.set_xlim(x0, x1)
     ax.set_ylim(y0, y1)
     ax.set_aspect("equal")
     ax.set_xlabel("x (µm)")
     ax.set_ylabel("y (µm)")
-    ax.set_title(title or "structure (hatched: absorbing layers)")
+    ax.set_title(title or "structure")
     ax.legend(loc="lower right", fontsize=7, framealpha=0.9)
     fig.tight_layout()
     fig.savefig(path, format="png")
@@ -181,7 +189,7 @@ def plot_field_map(field_map, chip_polygon, emitter, path, title="", span_db=40.
                       interpolation="bilinear", aspect="equal")
     poly = np.vstack([chip_polygon, chip_polygon[:1]])
     ax.plot(poly[:, 0], poly[:, 1], color="#ffffff", lw=0.8, alpha=0.8)
-    ax.plot([emitter[0]], [emitter[1]], marker="*", color=EMITTER_COLOUR, ms=9, mec="white", mew=0.5)
+    ax.plot([emitter[0]], [emitter[1]], ls="none", **{**EMITTER_MARK, "mec": "white"})
     ax.set_xlim(x0, x1)
     ax.set_ylim(y0, y1)
     ax.set_xlabel("x (µm)")

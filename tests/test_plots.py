@@ -89,3 +89,16 @@ def test_key_labels_carry_units():
     assert plots.key_label("surface.period") == "surface.period (µm)"
     assert plots.key_label("chip.alpha") == "chip.alpha (1/cm)"
     assert plots.key_label("chip.index") == "chip.index (no unit)"
+
+
+def test_structure_picture_has_its_own_look(saved, tmp_path):
+    """The package's own scheme, not an FDTD engine's plotting defaults: absorbing layers shaded (no
+    hatching), flux lines dashed, emitters as diamonds; one legend entry each."""
+    case = parse_case(CASE)
+    plots.plot_structure(make_layout(case), case.emitter.x, tmp_path / "s.png")
+    ax = saved[-1].axes[0]
+    assert not any(patch.get_hatch() for patch in ax.patches)
+    lines = {line.get_label(): line for line in ax.lines}
+    assert lines["emitter"].get_marker() == "D" and lines["flux lines"].get_linestyle() == "--"
+    labels = ax.get_legend_handles_labels()[1]
+    assert sorted(labels) == sorted(set(labels)) and "absorbing layers" in labels
