@@ -23,6 +23,10 @@ from .attenuation import per_um
 ORIENTATIONS = ("parallel", "normal", "out-of-plane")
 """Directions of the emitting current: along x, along y, along z (docs/conventions.md)."""
 
+ORIENTATION_SETS = {"isotropic": ORIENTATIONS, "in-plane": ("parallel", "out-of-plane")}
+"""Orientation names that stand for several directions of equal intrinsic strength: all three, or
+the two parallel to the surface (quantum-well emission is mostly in-plane)."""
+
 CATEGORIES = ("top", "bottom", "sides", "absorbed")
 """The power budget's entries, fractions of the emitted power (docs/conventions.md)."""
 
@@ -241,9 +245,12 @@ class Emitter(_Table):
     depth : float
         µm below y = 0; must lie below the deepest point of the pattern.
     x : list of float
-        Lateral positions, µm; one job each (a single number is accepted).
-    orientation : {"parallel", "normal", "out-of-plane", "isotropic"}
-        Direction of the emitting current; ``isotropic`` is all three.
+        Lateral positions, µm; one job each (a single number is accepted; a
+        sampling table ``{ across = "period", count = N }`` or ``{ span = W,
+        count = N }`` is expanded by :mod:`fdtd_cases.case_file`).
+    orientation : {"parallel", "normal", "out-of-plane", "isotropic", "in-plane"}
+        Direction of the emitting current; ``isotropic`` is all three,
+        ``in-plane`` the two parallel to the surface (parallel, out-of-plane).
     contour : float, optional
         Half-width of the square flux contour around the emitter, µm.
     source : {"line", "point"}
@@ -254,7 +261,7 @@ class Emitter(_Table):
 
     depth: Length
     x: list[Annotated[float, Field(allow_inf_nan=False)]] = Field(default=[0.0], min_length=1)
-    orientation: Literal["parallel", "normal", "out-of-plane", "isotropic"] = "isotropic"
+    orientation: Literal["parallel", "normal", "out-of-plane", "isotropic", "in-plane"] = "isotropic"
     contour: Optional[Length] = None
     source: Literal["line", "point"] = "line"
 
@@ -266,7 +273,7 @@ class Emitter(_Table):
 
     def orientations(self):
         """The job orientations this emitter stands for."""
-        return ORIENTATIONS if self.orientation == "isotropic" else (self.orientation,)
+        return ORIENTATION_SETS.get(self.orientation, (self.orientation,))
 
 
 class Grid(_Table):

@@ -120,6 +120,48 @@ def _check_units(case, source):
                             f"lengths down to {small:g} wavelengths are accepted")
 
 
+MAX_POSITIONS = 64
+"""Most emitter positions a sampling table may ask for (each is one job per orientation)."""
+
+
+def _sampled_positions(data, source):
+    """``data`` with a sampling table in ``[emitter] x`` replaced by the positions it stands for.
+
+    ``x = { across = "period", count = N }``: N positions i * period / N, i = 0 .. N-1, evenly over
+    one period of a periodic pattern (grating, triangle, sine); for a smooth periodic dependence on
+    x this is the trapezoid rule, exact for harmonics of the period below N.
+    ``x = { span = W, count = N }``: N positions at the midpoints of N equal parts of [-W/2, W/2]
+    (the midpoint rule), for any pattern. Other data is returned unchanged.
+    """
+    emitter = data.get("emitter") if isinstance(data, dict) else None
+    spec = emitter.get("x") if isinstance(emitter, dict) else None
+    if not isinstance(spec, dict):
+        return data
+    if set(spec) not in ({"across", "count"}, {"span", "count"}):
+        raise CaseError(source, "emitter.x", 'a sampling table takes across = "period" and count, or span '
+                        f"(µm) and count; got {', '.join(sorted(spec)) or 'nothing'}")
+    count = spec["count"]
+    if not isinstance(count, int) or isinstance(count, bool) or not 1 <= count <= MAX_POSITIONS:
+        raise CaseError(source, "emitter.x.count", f"must be a whole number from 1 to {MAX_POSITIONS}, "
+                        f"not {count!r}")
+    if "across" in spec:
+        surface = data.get("surface") if isinstance(data.get("surface"), dict) else {}
+        period = surface.get("period")
+        if spec["across"] != "period":
+            raise CaseError(source, "emitter.x.across", f'must be "period", not {spec["across"]!r}')
+        if surface.get("pattern") not in ("grating", "triangle", "sine") or not isinstance(period, (int, float)) \
+                or isinstance(period, bool) or not period > 0:
+            raise CaseError(source, "emitter.x.across", '"period" needs a periodic pattern (grating, triangle or '
+                            "sine) with its period; for other surfaces give span = W (µm) and count")
+        positions = [i * float(period) / count for i in range(count)]
+    else:
+        span = spec["span"]
+        if not isinstance(span, (int, float)) or isinstance(span, bool) or not 0 < span < math.inf:
+            raise CaseError(source, "emitter.x.span", f"must be a positive length in µm, not {span!r}")
+        positions = [(-0.5 + (i + 0.5) / count) * span for i in range(count)]
+    return {**data, "emitter": {**emitter, "x": positions}}
+
+
 def parse_case(data, source="case"):
     """Validate a dict read from TOML into a :class:`Case`.
 
@@ -129,6 +171,7 @@ def parse_case(data, source="case"):
         Naming the source, the key and what is allowed. All problems found are
         listed, one per line.
     """
+    data = _sampled_positions(data, source)
     try:
         case = Case.model_validate(data)
     except ValidationError as exc:

@@ -184,6 +184,25 @@ def _period(surface):
     return getattr(surface, "period", None) or getattr(surface, "correlation", 0.0)
 
 
+def positions_needed(case):
+    """Emitter positions, evenly over one period, that average a periodic pattern to about 1%; None otherwise.
+
+    Where the emitter sits in the period matters through the interference of plane waves in the
+    chip that differ by a multiple m of the grating wavenumber 2 pi / period; both propagate only
+    while m < 2 n period / lambda, so the efficiency's dependence on x holds harmonics of the
+    period up to that m (higher ones are evanescent and fade with depth). N positions i period / N
+    (the trapezoid rule) average harmonics below N exactly, hence N = floor(2 n period / lambda) + 1
+    at the shortest wavelength. Measured (tests/test_ensembles.py, out-of-plane line emitter 0.6 µm
+    deep): n = 2, period 1 µm at 1 µm, the rule's 5 positions give the 20-position average to 0.10%,
+    4 positions to 1.5%, 2 to 12%, one to 22%.
+    """
+    period = getattr(case.surface, "period", None)
+    if period is None:
+        return None
+    lam = float(case.light.wavelengths().min())
+    return int(math.floor(2 * case.chip.index * period / lam)) + 1
+
+
 OPAQUE = 5.0
 """alpha x thickness above which a layer warns: exp(-5) = 0.7% of the light survives one pass."""
 

@@ -102,6 +102,26 @@ def _budget(top, bottom, sides, emitted):
             "absorbed": absorbed / emitted}
 
 
+def _positions(jobs, scaled):
+    """Over several emitter positions: each position's efficiency (its orientations and wavelengths
+    summed over summed, as the whole run) and their spread; None for one position.
+
+    ``mean`` is the plain average of the positions' efficiencies, ``spread`` their standard deviation
+    (population), ``min`` and ``max`` the extremes. The run's ``efficiency`` is the sum over sum of
+    all jobs, which weights each position by its emitted power (an ensemble of emitters of equal
+    intrinsic strength).
+    """
+    xs = list(dict.fromkeys(job["x"] for job in jobs))
+    if len(xs) < 2:
+        return None
+    values = []
+    for x in xs:
+        chosen = [s for s, job in zip(scaled, jobs) if job["x"] == x]
+        values.append(float(sum(np.sum(s["top"]) for s in chosen) / sum(np.sum(s["emitted"]) for s in chosen)))
+    return {"x": [float(x) for x in xs], "efficiency": values, "mean": float(np.mean(values)),
+            "spread": float(np.std(values)), "min": min(values), "max": max(values)}
+
+
 def summarise(jobs, wavelengths, lossless):
     """Combine jobs into the reported numbers.
 
@@ -144,7 +164,9 @@ def summarise(jobs, wavelengths, lossless):
             "emission_factor": float(np.mean(s["emitted"])),
             "efficiency_spectrum": (s["top"] / s["emitted"]).tolist(),
         })
+    positions = _positions(jobs, scaled)
     return {
+        **({"positions": positions} if positions else {}),
         "efficiency": budget["top"],
         "efficiency_spectrum": (total["top"] / total["emitted"]).tolist(),
         "wavelengths": [float(w) for w in wavelengths],

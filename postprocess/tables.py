@@ -45,6 +45,11 @@ def format_report(summary, title):
         if ref:
             row += f"  {ref['efficiency']:>8.4f}  {_pct(summary['efficiency'], ref['efficiency']):>8}"
         out.append(row)
+    if summary.get("positions"):
+        p = summary["positions"]
+        out.append(f"  over {len(p['x'])} emitter positions: {p['min']:.4f} to {p['max']:.4f} per position, mean "
+                   f"{p['mean']:.4f}, standard deviation {p['spread']:.4f} (the efficiency above is their sum over "
+                   "sum: each position weighted by its emitted power)")
     b = summary["budget"]
     out += ["", "  power budget (fractions of the emitted power, all jobs and wavelengths):",
             f"    {'':>8}  {'top':>8}  {'bottom':>8}  {'sides':>8}  {'absorbed':>8}",
@@ -156,6 +161,12 @@ def format_check(facts):
            f"  estimate per job   about {est['time_steps']:,} time steps, {duration(est['seconds'])} "
            f"(without symmetry), {_human_bytes(est['memory_bytes'])}",
            f"  estimate in all    about {duration(facts['seconds_in_all'])} on {facts['workers']} worker(s)"]
+    needed = facts.get("positions_needed")
+    if needed:
+        given = facts["positions"]
+        out.append(f"  positions          {given} given; averaging over the period to about 1% takes {needed} "
+                   f"(x = {{ across = \"period\", count = {needed} }})"
+                   + ("" if given >= needed else "; one position's answer depends on where in the period it sits"))
     if facts.get("sweep"):
         sweep = facts["sweep"]
         out.append(f"  sweep              valid: {sweep['points']} point(s) ({sweep['mode']} of "

@@ -79,7 +79,7 @@ def escape_cone(orientation, n_chip, n_ambient=1.0, dim=2, fresnel_losses=False)
 
     Parameters
     ----------
-    orientation : {"parallel", "normal", "out-of-plane", "isotropic"}
+    orientation : {"parallel", "normal", "out-of-plane", "isotropic", "in-plane"}
     n_chip, n_ambient : float
         Real indices.
     dim : {2, 3}
@@ -87,6 +87,8 @@ def escape_cone(orientation, n_chip, n_ambient=1.0, dim=2, fresnel_losses=False)
         Weight the cone by the interface transmission (quadrature) instead of 1.
     """
     tc = critical_angle(n_chip, n_ambient)
+    if orientation == "in-plane":  # the two in-plane directions, equal intrinsic strength
+        return sum(escape_cone(o, n_chip, n_ambient, dim, fresnel_losses) for o in ("parallel", "out-of-plane")) / 2
     if orientation == "isotropic":
         if not fresnel_losses:
             return tc / np.pi if dim == 2 else (1 - np.cos(tc)) / 2
