@@ -122,6 +122,32 @@ def source_pulse(layout, frequency=None):
     return frequency, KZ_BANDWIDTH * frequency
 
 
+def chip_objects(surface, polygon, material):
+    """The chip as Meep objects: blocks where every face is parallel to an axis, else one prism.
+
+    Meep averages epsilon over each pixel that an object's face crosses (subpixel averaging) and
+    does so accurately for blocks; for a prism in Meep 1.25 the averaging around its corners is
+    coarser. Measured on a rectangular grating (period 0.8 µm, depth 0.3 µm, fill 0.5, n = 2.5, 1 µm
+    light, out-of-plane emitter 1 µm deep, 40 points per µm, 16 per chip wavelength): the prism gave
+    0.0925, blocks 0.0969, against 0.0987 converged (bench/validate_textures.py, where a plain Meep
+    script extrapolates to the same 0.0987). A grating is therefore built as a block for the chip
+    below its grooves and a block per ridge; other patterns stay prisms.
+    """
+    if surface.pattern != "grating":
+        return [mp.Prism(vertices=[mp.Vector3(x, y) for x, y in polygon], height=mp.inf, material=material)]
+    x_min, x_max = polygon[:, 0].min(), polygon[:, 0].max()
+    y_bottom, h = polygon[:, 1].min(), surface.height
+    objects = [mp.Block(center=mp.Vector3((x_min + x_max) / 2, (y_bottom - h) / 2),
+                        size=mp.Vector3(x_max - x_min, -h - y_bottom, mp.inf), material=material)]
+    width = surface.fill * surface.period
+    for c in np.arange(math.ceil(x_min / surface.period), math.floor(x_max / surface.period) + 1) * surface.period:
+        left, right = max(c - width / 2, x_min), min(c + width / 2, x_max)
+        if right > left:
+            objects.append(mp.Block(center=mp.Vector3((left + right) / 2, -h / 2), size=mp.Vector3(right - left, h, mp.inf),
+                                    material=material))
+    return objects
+
+
 def build_simulation(case, layout, orientation, x0, symmetric, kz=None, kz_mode=KZ_MODE, frequency=None):
     """A ready-to-run ``mp.Simulation`` of one job (no monitors yet).
 
@@ -131,8 +157,7 @@ def build_simulation(case, layout, orientation, x0, symmetric, kz=None, kz_mode=
     """
     chip = mp.Medium(index=case.chip.index,
                      D_conductivity=d_conductivity(case.chip.alpha_per_um, case.chip.index))
-    geometry = [mp.Prism(vertices=[mp.Vector3(x, y) for x, y in layout.chip_polygon],
-                         height=mp.inf, material=chip)]
+    geometry = chip_objects(case.surface, layout.chip_polygon, chip)
     for y_low, y_high, index, alpha in layout.films:
         geometry.append(mp.Block(center=mp.Vector3(0, (y_low + y_high) / 2), size=mp.Vector3(mp.inf, y_high - y_low),
                                  material=mp.Medium(index=index, D_conductivity=d_conductivity(alpha, index))))
