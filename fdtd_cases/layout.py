@@ -184,6 +184,40 @@ def _period(surface):
     return getattr(surface, "period", None) or getattr(surface, "correlation", 0.0)
 
 
+GRID_ERROR = {"flat": 0.0023, "grating": 0.0031, "triangle": 0.0011}
+"""Measured error of a line-source run at 16 points per wavelength, divided by n^2 (n: the densest
+index), per surface kind; the estimate scales as (16 / points per wavelength)^2 (second-order
+convergence). Flat: bench/validate_line_grid.py, the worst orientation at n = 2.0, 2.5 and 3.5
+(0.9%, 1.15%, 2.8%: 0.0023 n^2 within 20%). Textures: bench/validate_textures.py at n = 2.5, the
+worst of the combined and the two in-plane dipoles against the extrapolated limit (grating
+out-of-plane -1.90%, triangle out-of-plane -0.69%). Sine, random and profile surfaces take the
+largest textured value (not measured to convergence: the sine's runs are slow, see that script)."""
+
+POINT_GRID_FACTOR = 2.0
+"""Point sources carry more grid error than line sources of the same case: measured on flat chips
+(worst dipole at 16 points per wavelength) +1.56% at n = 2.0 and +1.98% at n = 2.5
+(bench/validate_point.py), +1.73% at n = 2.0 in a 16 µm wide domain (test_fdtd_point.py), against
+0.0023 n^2 = 0.92% and 1.44% for line sources."""
+
+
+def grid_error_estimate(case, resolution):
+    """The expected relative error of the efficiency on this grid, and what it rests on.
+
+    From :data:`GRID_ERROR` (measured per surface kind), scaled by the densest index squared and by
+    (16 / points per wavelength)^2. An estimate from other chips, not a bound: ``outcouple converge``
+    measures a case's own error.
+    """
+    n_max = max(_indices(case).values())
+    ppw = float(case.light.wavelengths().min()) * resolution / n_max
+    kind = case.surface.pattern
+    textured = [v for k, v in GRID_ERROR.items() if k != "flat" and v is not None]
+    per_n2 = GRID_ERROR.get(kind) or max(textured + [GRID_ERROR["flat"]])
+    measured = "measured" if kind in GRID_ERROR else "the largest measured on textures, not measured for this kind"
+    factor, point = (POINT_GRID_FACTOR, ", point dipoles") if case.emitter.source == "point" else (1.0, "")
+    return {"estimate": factor * per_n2 * n_max ** 2 * (16.0 / ppw) ** 2, "points_per_wavelength": ppw,
+            "basis": f"{kind} surfaces{point} ({measured}), scaled as the square of the grid step"}
+
+
 def positions_needed(case):
     """Emitter positions, evenly over one period, that average a periodic pattern to about 1%; None otherwise.
 

@@ -24,7 +24,7 @@ from fdtd_cases.case import Case, Collection
 from fdtd_cases.case_file import load_case as _read_case_file
 from fdtd_cases.case_file import parse_case, resolved_dict
 from fdtd_cases.errors import CaseError
-from fdtd_cases.layout import make_layout, positions_needed
+from fdtd_cases.layout import grid_error_estimate, make_layout, positions_needed
 from fdtd_cases.runner import run_jobs
 from postprocess import analysis, farfield
 from postprocess.results import read_results, write_results
@@ -138,6 +138,7 @@ def check(case):
         "estimate": est, "workers": workers, "seconds_in_all": est["seconds"] * len(jobs) / workers,
         "collection_half_angle": case.collection.degrees(case.ambient.index) if case.collection else None,
         "warnings": list(layout.warnings), "positions_needed": positions_needed(case),
+        "grid_error": grid_error_estimate(case, layout.resolution),
     })
     if case.sweep is not None:
         facts["sweep"] = _sweep_facts(case)

@@ -10,6 +10,7 @@ a point dipole under the same stack with a flat surface (the 3-D baseline no
 collection cone.
 """
 
+from fdtd_cases.layout import grid_error_estimate
 from postprocess import analysis, farfield, hemisphere
 from references import reference
 
@@ -39,6 +40,7 @@ def summarise(case, jobs, wavelengths, resolution):
         Grid points per µm of the run.
     """
     summary = analysis.analyse(case, jobs, wavelengths, resolution)
+    summary["grid_error"] = grid_error_estimate(case, resolution)
     if case.surface.pattern == "flat":  # the exact planar solver covers every flat case
         summary["reference"] = exact_reference(case)
     if case.emitter.source == "line":

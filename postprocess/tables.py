@@ -45,6 +45,8 @@ def format_report(summary, title):
         if ref:
             row += f"  {ref['efficiency']:>8.4f}  {_pct(summary['efficiency'], ref['efficiency']):>8}"
         out.append(row)
+    if summary.get("grid_error"):
+        out.append(f"  grid: {_grid_error(summary['grid_error'])}")
     if summary.get("positions"):
         p = summary["positions"]
         out.append(f"  over {len(p['x'])} emitter positions: {p['min']:.4f} to {p['max']:.4f} per position, mean "
@@ -122,6 +124,12 @@ def _farfield_lines(summary):
     return out
 
 
+def _grid_error(info):
+    """One line on the grid's expected error (outcouple check, run, show)."""
+    return (f"about {100 * info['estimate']:.1f}% from the grid at {info['points_per_wavelength']:.1f} points per "
+            f"wavelength ({info['basis']}); 'outcouple converge' measures this case's own")
+
+
 def duration(seconds):
     """A time span as people read it: seconds below two minutes, minutes below two hours, else hours."""
     if seconds < 120:
@@ -161,6 +169,8 @@ def format_check(facts):
            f"  estimate per job   about {est['time_steps']:,} time steps, {duration(est['seconds'])} "
            f"(without symmetry), {_human_bytes(est['memory_bytes'])}",
            f"  estimate in all    about {duration(facts['seconds_in_all'])} on {facts['workers']} worker(s)"]
+    if facts.get("grid_error"):
+        out.append(f"  expected accuracy  {_grid_error(facts['grid_error'])}")
     needed = facts.get("positions_needed")
     if needed:
         given = facts["positions"]
