@@ -34,7 +34,19 @@ the x mirror only. Centred at z = 0 (``--ez-at-zero``) the 3-D run gave LEE 0.12
 0.9923 of bulk at resolution 20, Z_HALF = 6: package -2.3% and +2.8% instead of -1.0% and +0.7%.
 
 Output here (Meep 1.25, 2 cores shared with another Meep job; diff = package / 3-D - 1), after
-both runs placed the dipole on its own grid points in x and y (fdtd_cases.meep_job.source_points):
+the package built gratings as blocks (fdtd_cases.meep_job.chip_objects), 2026-12-03:
+
+    resolution 20; width 4 (+ PML 1); top plane at y = 0.6; 3-D cell 6 x 3.9 x 14
+    orientation   z half  3-D LEE  pkg LEE    diff 3-D emit pkg emit    diff     flat  3-D s  pkg s kz runs
+    parallel           6  0.11477  0.11618  +1.23%   0.9956   0.9848  -1.09%  0.07773     17     17      15
+    normal             6  0.02089  0.02095  +0.28%   1.0291   1.0187  -1.02%  0.01203     15     19      15
+    out-of-plane       6  0.12647  0.12511  -1.07%   1.0124   1.0205  +0.79%  0.07773     33     17      15
+    normal             9  0.02089  0.02095  +0.25%   1.0291   1.0187  -1.02%  0.01203     22     19      15
+
+The normal dipole's gap of the runs below (+3.9%) was the package's polygon, not the 3-D run's
+z grid: edges on grid lines are not enough for Meep 1.25 to average a prism's corners like a
+block's. Earlier, with the package's polygon, after both runs placed the dipole on its own grid
+points in x and y (fdtd_cases.meep_job.source_points):
 
     resolution 20; width 4 (+ PML 1); top plane at y = 0.6; 3-D cell 6 x 3.9 x 14
     orientation   z half  3-D LEE  pkg LEE    diff 3-D emit pkg emit    diff     flat  3-D s  pkg s kz runs
@@ -78,7 +90,8 @@ Other checks. Mirror symmetries: both mirrors against an unsymmetric run (resolu
 misses light that leaves at large |z|; the kz integral has no such cut); at Z_HALF = 2 (the x
 half-width) it costs 3-7%. Stop rule: tolerance 1e-9 instead of 1e-6 changed the 3-D LEE by
 4e-7. The grating's edges (x = +-0.2 + 0.8 k, y = -0.2) lie on grid lines at resolutions 20,
-30 and 40, so the package's polygon (mp.Prism) and the Blocks here are averaged alike.
+30 and 40; the package's polygon (mp.Prism) was still averaged differently from the Blocks here
+(see above); the package now builds gratings as Blocks too.
 """
 
 import argparse
