@@ -28,8 +28,6 @@ import json
 import sys
 from pathlib import Path
 
-import numpy as np
-
 import outcouple
 from postprocess.convergence import extrapolate
 

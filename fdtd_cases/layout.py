@@ -210,8 +210,7 @@ def grid_error_estimate(case, resolution):
     n_max = max(_indices(case).values())
     ppw = float(case.light.wavelengths().min()) * resolution / n_max
     kind = case.surface.pattern
-    textured = [v for k, v in GRID_ERROR.items() if k != "flat" and v is not None]
-    per_n2 = GRID_ERROR.get(kind) or max(textured + [GRID_ERROR["flat"]])
+    per_n2 = GRID_ERROR.get(kind) or max(v for k, v in GRID_ERROR.items() if k != "flat")
     measured = "measured" if kind in GRID_ERROR else "the largest measured on textures, not measured for this kind"
     factor, point = (POINT_GRID_FACTOR, ", point dipoles") if case.emitter.source == "point" else (1.0, "")
     return {"estimate": factor * per_n2 * n_max ** 2 * (16.0 / ppw) ** 2, "points_per_wavelength": ppw,

@@ -96,10 +96,20 @@ def job_fluxes(lines, resolution):
     }
 
 
-def _budget(top, bottom, sides, emitted):
-    absorbed = emitted - top - bottom - sides
+def _budget(top, bottom, sides, emitted, lossless):
+    """Fractions of the emitted power; without loss absorbed is exactly 0 (the residual is the balance error)."""
+    absorbed = 0.0 if lossless else emitted - top - bottom - sides
     return {"top": top / emitted, "bottom": bottom / emitted, "sides": sides / emitted,
             "absorbed": absorbed / emitted}
+
+
+def _by(jobs, scaled, key):
+    """Efficiency per value of the job field ``key`` (in first-seen order): its jobs' top over emitted, summed."""
+    out = {}
+    for value in dict.fromkeys(job[key] for job in jobs):
+        chosen = [s for s, job in zip(scaled, jobs) if job[key] == value]
+        out[value] = float(sum(np.sum(s["top"]) for s in chosen) / sum(np.sum(s["emitted"]) for s in chosen))
+    return out
 
 
 def _positions(jobs, scaled):
@@ -111,14 +121,11 @@ def _positions(jobs, scaled):
     all jobs, which weights each position by its emitted power (an ensemble of emitters of equal
     intrinsic strength).
     """
-    xs = list(dict.fromkeys(job["x"] for job in jobs))
-    if len(xs) < 2:
+    per_x = _by(jobs, scaled, "x")
+    if len(per_x) < 2:
         return None
-    values = []
-    for x in xs:
-        chosen = [s for s, job in zip(scaled, jobs) if job["x"] == x]
-        values.append(float(sum(np.sum(s["top"]) for s in chosen) / sum(np.sum(s["emitted"]) for s in chosen)))
-    return {"x": [float(x) for x in xs], "efficiency": values, "mean": float(np.mean(values)),
+    values = list(per_x.values())
+    return {"x": [float(x) for x in per_x], "efficiency": values, "mean": float(np.mean(values)),
             "spread": float(np.std(values)), "min": min(values), "max": max(values)}
 
 
@@ -144,20 +151,11 @@ def summarise(jobs, wavelengths, lossless):
     scaled = [{k: job["fluxes"][k] / job["bulk"] for k in keys} for job in jobs]
     total = {k: sum(s[k] for s in scaled) for k in keys}           # per wavelength
     grand = {k: float(np.sum(total[k])) for k in keys}
-    budget = _budget(**grand)
-    balance = abs(budget["absorbed"]) if lossless else None
-    if lossless:  # nothing can absorb: the residual is the balance error, not an absorbed fraction
-        budget["absorbed"] = 0.0
-    by_orientation = {}
-    for orientation in dict.fromkeys(job["orientation"] for job in jobs):
-        chosen = [s for s, job in zip(scaled, jobs) if job["orientation"] == orientation]
-        by_orientation[orientation] = float(sum(np.sum(s["top"]) for s in chosen)
-                                            / sum(np.sum(s["emitted"]) for s in chosen))
+    budget = _budget(**grand, lossless=lossless)
+    residual = grand["emitted"] - grand["top"] - grand["bottom"] - grand["sides"]
     per_job = []
     for s, job in zip(scaled, jobs):
-        b = _budget(*(float(np.sum(s[k])) for k in keys))
-        if lossless:
-            b["absorbed"] = 0.0
+        b = _budget(*(float(np.sum(s[k])) for k in keys), lossless)
         per_job.append({
             "orientation": job["orientation"], "x": job["x"],
             "efficiency": b["top"], "budget": b,
@@ -170,9 +168,9 @@ def summarise(jobs, wavelengths, lossless):
         "efficiency": budget["top"],
         "efficiency_spectrum": (total["top"] / total["emitted"]).tolist(),
         "wavelengths": [float(w) for w in wavelengths],
-        "by_orientation": by_orientation,
+        "by_orientation": _by(jobs, scaled, "orientation"),
         "budget": budget,
-        "balance_error": balance,
+        "balance_error": abs(residual) / grand["emitted"] if lossless else None,
         "emission_factor": grand["emitted"] / (len(jobs) * len(wavelengths)),
         "jobs": per_job,
     }
