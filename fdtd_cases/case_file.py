@@ -4,7 +4,6 @@ Every problem pydantic finds becomes one line naming the source, the dotted
 key and what is allowed (:class:`fdtd_cases.errors.CaseError`).
 """
 
-import difflib
 import math
 import tomllib
 from pathlib import Path
@@ -13,7 +12,7 @@ from typing import get_args, get_origin
 from pydantic import BaseModel, ValidationError
 
 from .case import Case, Flat, Grating, Profile, Random, Sine, Triangle
-from .errors import CaseError
+from .errors import CaseError, did_you_mean
 
 
 def _table_class(loc):
@@ -54,9 +53,7 @@ def _describe(error, surface_pattern):
         if cls is None:
             return key, "unknown key"
         allowed = list(cls.model_fields)
-        close = difflib.get_close_matches(str(loc[-1]), allowed, n=1, cutoff=0.6)
-        hint = f"did you mean {close[0]}? " if close else ""
-        return key, f"unknown key; {hint}allowed here: {', '.join(allowed)}"
+        return key, f"unknown key; {did_you_mean(loc[-1], allowed)}allowed here: {', '.join(allowed)}"
     if kind == "missing":
         return key, "required key is missing"
     if kind == "union_tag_invalid" or kind == "union_tag_not_found":

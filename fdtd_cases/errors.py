@@ -1,4 +1,6 @@
-"""The one error type for bad input, carrying the file and the key path."""
+"""The one error type for bad input, carrying the file and the key path, and the hint a message gives."""
+
+import difflib
 
 
 class CaseError(Exception):
@@ -24,3 +26,9 @@ class CaseError(Exception):
     def __str__(self):
         where = f"{self.source}: {self.key}" if self.key else self.source
         return f"{where}: {self.message}"
+
+
+def did_you_mean(word, allowed):
+    """"did you mean X? " for the allowed name closest to a misspelled ``word``, else "" (difflib, ratio 0.6)."""
+    close = difflib.get_close_matches(str(word), list(allowed), n=1, cutoff=0.6)
+    return f"did you mean {close[0]}? " if close else ""

@@ -11,7 +11,6 @@ only when everything has run.
 
 import copy
 import csv
-import difflib
 import math
 import sys
 import tomllib
@@ -20,7 +19,7 @@ from pathlib import Path
 import numpy as np
 
 from fdtd_cases.case_file import load_case, parse_case
-from fdtd_cases.errors import CaseError
+from fdtd_cases.errors import CaseError, did_you_mean
 from fdtd_cases.layout import make_layout
 from fdtd_cases.runner import run_cases
 from postprocess.files import atomic_write
@@ -76,9 +75,7 @@ def with_value(data, key, value, source, label=None, who="compare varies"):
     for part in parts[:-1]:
         table = table.get(part) if isinstance(table, dict) else None
     if not isinstance(table, dict) or parts[-1] not in table or isinstance(table[parts[-1]], (dict, list)):
-        given = [k for k in numeric_keys(data) if not k.startswith("sweep.")]
-        close = difflib.get_close_matches(key, given, n=1, cutoff=0.6)
-        hint = f"did you mean {close[0]}? " if close else ""
+        hint = did_you_mean(key, [k for k in numeric_keys(data) if not k.startswith("sweep.")])
         raise CaseError(source, label or key, f"is not set in the case file; {hint}{who} a number the file "
                         "already gives (a dotted key such as surface.period; arrays of tables cannot be varied)")
     table[parts[-1]] = float(value)
