@@ -122,8 +122,8 @@ def source_pulse(layout, frequency=None):
     return frequency, KZ_BANDWIDTH * frequency
 
 
-def chip_objects(surface, polygon, material):
-    """The chip as Meep objects: blocks where every face is parallel to an axis, else one prism.
+def chip_objects(surface, polygon, material, cell):
+    """The chip as Meep objects, built so that Meep 1.25 averages each face well and quickly.
 
     Meep averages epsilon over each pixel that an object's face crosses (subpixel averaging) and
     does so accurately for blocks; for a prism in Meep 1.25 the averaging around its corners is
@@ -131,12 +131,36 @@ def chip_objects(surface, polygon, material):
     light, out-of-plane emitter 1 µm deep, 40 points per µm, 16 per chip wavelength): the prism gave
     0.0925, blocks 0.0969, against 0.0987 converged (bench/validate_textures.py, where a plain Meep
     script extrapolates to the same 0.0987). A grating is therefore built as a block for the chip
-    below its grooves and a block per ridge; other patterns stay prisms.
+    below its grooves and a block per ridge.
+
+    Other patterns (sloped or curved faces) are a prism, but only over the textured band: a block
+    holds the chip from its bottom to two cells below the pattern's deepest point, and the prism
+    (the surface, closed four cells below that point) overlaps it by two cells. Meep's cost of a
+    prism grows with its vertex count times the pixels inside its bounding box, and the band's box
+    is the pattern's depth instead of the whole chip's. The seam is a face between two objects of
+    the same material that never meets the surface, so it averages to the chip's epsilon: measured
+    on the triangle above, all three orientations equal the one-prism chip to 6 digits, the run
+    7 s instead of 12 s; the sine (48 vertices per period) 100 s instead of 210 s. Cutting the band
+    itself into per-period prisms would be faster still, but their seams meet the surface and
+    Meep 1.25 does not average such pixels as one face (the sine moved by 0.4 to 0.6%).
+
+    ``cell``: the grid spacing, µm.
     """
-    if surface.pattern != "grating":
-        return [mp.Prism(vertices=[mp.Vector3(x, y) for x, y in polygon], height=mp.inf, material=material)]
     x_min, x_max = polygon[:, 0].min(), polygon[:, 0].max()
-    y_bottom, h = polygon[:, 1].min(), surface.height
+    y_bottom = polygon[:, 1].min()
+    if surface.pattern == "flat":
+        return [mp.Prism(vertices=[mp.Vector3(x, y) for x, y in polygon], height=mp.inf, material=material)]
+    if surface.pattern != "grating":
+        surface_line = polygon[:-2]  # geometry.chip_polygon: the surface, then two bottom corners
+        deepest = surface_line[:, 1].min()
+        band_bottom, body_top = deepest - 4 * cell, deepest - 2 * cell
+        objects = []
+        if band_bottom > y_bottom:
+            objects.append(mp.Block(center=mp.Vector3((x_min + x_max) / 2, (y_bottom + body_top) / 2),
+                                    size=mp.Vector3(x_max - x_min, body_top - y_bottom, mp.inf), material=material))
+        band = np.vstack([surface_line, [[x_max, max(band_bottom, y_bottom)], [x_min, max(band_bottom, y_bottom)]]])
+        return objects + [mp.Prism(vertices=[mp.Vector3(x, y) for x, y in band], height=mp.inf, material=material)]
+    h = surface.height
     objects = [mp.Block(center=mp.Vector3((x_min + x_max) / 2, (y_bottom - h) / 2),
                         size=mp.Vector3(x_max - x_min, -h - y_bottom, mp.inf), material=material)]
     width = surface.fill * surface.period
@@ -157,7 +181,7 @@ def build_simulation(case, layout, orientation, x0, symmetric, kz=None, kz_mode=
     """
     chip = mp.Medium(index=case.chip.index,
                      D_conductivity=d_conductivity(case.chip.alpha_per_um, case.chip.index))
-    geometry = chip_objects(case.surface, layout.chip_polygon, chip)
+    geometry = chip_objects(case.surface, layout.chip_polygon, chip, 1 / layout.resolution)
     for y_low, y_high, index, alpha in layout.films:
         geometry.append(mp.Block(center=mp.Vector3(0, (y_low + y_high) / 2), size=mp.Vector3(mp.inf, y_high - y_low),
                                  material=mp.Medium(index=index, D_conductivity=d_conductivity(alpha, index))))
