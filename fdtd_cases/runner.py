@@ -44,7 +44,30 @@ def plan_jobs(case, layout, guided=None):
     return [{**job, **node} for job in jobs for node in nodes]
 
 
-def _quiet_worker():
+ORPHAN_CHECK_SECONDS = 1.0
+"""How often a worker looks whether the process that started it is still there."""
+
+
+def _exit_when_orphaned(parent):
+    """Leave as soon as the parent is gone: a killed ``run`` must not leave Meep jobs running.
+
+    A pool's workers outlive a parent killed by a signal it cannot handle (SIGKILL, or SIGTERM sent
+    to it alone), and each would go on with its job and then wait for work forever (seen here: two
+    workers of a killed run still stepping a point source minutes later).
+    """
+    import threading
+    import time
+
+    def watch():
+        while os.getppid() == parent:
+            time.sleep(ORPHAN_CHECK_SECONDS)
+        os._exit(1)
+
+    threading.Thread(target=watch, daemon=True, name="orphan-watch").start()
+
+
+def _quiet_worker(parent):
+    _exit_when_orphaned(parent)
     devnull = os.open(os.devnull, os.O_WRONLY)
     os.dup2(devnull, 1)
     import warnings
@@ -105,7 +128,8 @@ def run_many(items, workers=None, progress=True, on_result=None, on_error=None):
     results = [None] * len(items)
     bar = tqdm(total=len(items), desc="FDTD jobs", unit="job", file=sys.stderr, disable=not progress,
                bar_format="{desc}: {n_fmt}/{total_fmt} |{bar}| {elapsed} elapsed, {remaining} left")
-    with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_quiet_worker) as pool:
+    with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_quiet_worker,
+                             initargs=(os.getpid(),)) as pool:
         futures = {pool.submit(run_planned, *item): i for i, item in enumerate(items)}
         for future in as_completed(futures):
             i = futures[future]
