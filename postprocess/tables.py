@@ -18,6 +18,11 @@ def _pct(a, b):
     return f"{100 * (a / b - 1):+.2f}%" if b else "n/a"
 
 
+def _share(value):
+    """A budget share in 8 columns, 4 decimals; a rounding residue prints as 0.0000, not -0.0000."""
+    return f"{round(value, 4) + 0.0:>8.4f}"
+
+
 def format_report(summary, title):
     """Plain-text tables of a summary."""
     ref = summary.get("reference")
@@ -55,9 +60,9 @@ def format_report(summary, title):
     b = summary["budget"]
     out += ["", "  power budget (fractions of the emitted power, all jobs and wavelengths):",
             f"    {'':>8}  {'top':>8}  {'bottom':>8}  {'sides':>8}  {'absorbed':>8}",
-            f"    {'FDTD':>8}  " + "  ".join(f"{b[k]:>8.4f}" for k in CATEGORIES)]
+            f"    {'FDTD':>8}  " + "  ".join(_share(b[k]) for k in CATEGORIES)]
     if ref:
-        out.append(f"    {'exact':>8}  " + "  ".join(f"{ref['budget'][k]:>8.4f}" for k in CATEGORIES))
+        out.append(f"    {'exact':>8}  " + "  ".join(_share(ref['budget'][k]) for k in CATEGORIES))
     if summary["balance_error"] is not None:
         out.append(f"    balance error (lossless: |emitted - top - bottom - sides| / emitted) "
                    f"{summary['balance_error']:.4f}")
