@@ -200,6 +200,29 @@ POINT_GRID_FACTOR = 2.0
 0.0023 n^2 = 0.92% and 1.44% for line sources."""
 
 
+ESCAPE_ANGLE_CAP = math.radians(75.0)
+"""The steepest angle :func:`back_return_reach` follows when the ambient is as dense as the chip."""
+
+
+def back_return_reach(case):
+    """How far from the emitter (µm) light of the escape cone comes back to the top after one
+    reflection at the back side; 0 for a chip without a reflecting back.
+
+    A finite chip on a mirror or a substrate sends part of the light inside the escape cone
+    (sin theta_c = n_ambient / n_chip) back up, after a path of 2 t - d down and up again (t the
+    thickness, d the emitter's depth), so it reaches the top up to (2 t - d) tan theta_c away. A
+    window narrower than that loses it, and with it the interference it makes with the direct
+    light. Measured on a 4 µm GaN layer on sapphire under silicone at 450 nm (reach 5.1 µm, README
+    "A real LED, step by step"), the line-source efficiency against the exact solver at window
+    widths 3.7, 8, 10.2, 12 and 16 µm: -2.27%, -0.71%, -0.18%, -0.04%, -0.02%. The default width
+    takes twice this reach plus one wavelength a side.
+    """
+    if case.chip.back not in ("mirror", "substrate", "metal") or not math.isfinite(case.chip.thickness):
+        return 0.0
+    angle = min(math.asin(min(case.ambient.index / case.chip.index, 1.0)), ESCAPE_ANGLE_CAP)
+    return (2 * case.chip.thickness - case.emitter.depth) * math.tan(angle)
+
+
 def grid_error_estimate(case, resolution):
     """The expected relative error of the efficiency on this grid, and what it rests on.
 
@@ -284,7 +307,8 @@ def make_layout(case, source="case", fdtd=True):
     if case.grid.width is not None:
         width = case.grid.width
     else:
-        width = max(8 * lam_max, 4 * _period(case.surface)) + 2 * max(abs(x) for x in xs)
+        width = (max(8 * lam_max, 4 * _period(case.surface), 2 * (back_return_reach(case) + lam_max))
+                 + 2 * max(abs(x) for x in xs))
     half = snap_up(width / 2, resolution)
     width = 2 * half
     cell_x = round((width + 2 * pml) * resolution) / resolution

@@ -9,7 +9,7 @@ import tomllib
 
 import pytest
 
-from conftest import CONFIGS
+from conftest import CONFIGS, requires_meep
 
 import outcouple
 
@@ -72,3 +72,31 @@ def test_one_index_for_the_band_costs_what_the_comments_say():
     assert abs(sum(line) / len(line) / constant["efficiency"] - 1) == pytest.approx(0.010, abs=0.002)
     assert abs(sum(point) / len(point) / constant["point_dipole"]["efficiency"] - 1) < 0.004
     assert 0.03 < max(single) < 0.05
+
+
+@requires_meep
+@pytest.mark.fdtd
+def test_flat_die_at_the_default_window_matches_the_exact_solver():
+    """Without its `grid.width`, the flat die's window comes from the default, which now reaches
+    the escape-cone light reflected at the sapphire (layout.back_return_reach: 5.1 µm each side).
+    Exact planar solver as the reference; measured -0.08% (the old 8-wavelength default: -2.27%)."""
+    data = load("blue_die_flat.toml")
+    del data["grid"]
+    result = outcouple.run(data, workers=2, progress=False).to_dict()
+    ref = result["reference"]
+    assert result["efficiency"] == pytest.approx(ref["efficiency"], rel=0.005)
+    for orientation, value in result["by_orientation"].items():
+        assert value == pytest.approx(ref["by_orientation"][orientation], rel=0.01), orientation
+
+
+def test_default_window_reaches_the_light_reflected_at_the_back():
+    """Geometry of one round trip inside the escape cone (Snell's law): the light reflected at the
+    sapphire returns (2 t - d) tan(asin(n_ambient / n_chip)) from the emitter; the default window
+    spans twice that plus a wavelength each side. Open backs keep the 8-wavelength default."""
+    data = load("blue_die_flat.toml")
+    del data["grid"]
+    reach = (2 * 4.0 - 0.6) * math.tan(math.asin(1.41 / 2.4869))
+    facts = outcouple.check(data)
+    assert 2 * facts["x_side"] >= 2 * (reach + 0.46)
+    open_back = {**data, "chip": {"index": 2.4869}}
+    assert 2 * outcouple.check(open_back)["x_side"] == pytest.approx(8 * 0.46, abs=0.03)
