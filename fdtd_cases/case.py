@@ -292,7 +292,9 @@ class Grid(_Table):
         sampled vacuum wavelength.
     width : float, optional
         Lateral size of the domain inside the absorbing layers, µm; default:
-        8 longest wavelengths, and at least 4 pattern periods.
+        8 longest wavelengths, at least 4 pattern periods, and for a finite chip on a
+        mirror or substrate at least twice its back-side reach plus a wavelength each
+        side (``fdtd_cases.layout.back_return_reach``); plus twice the largest abs(x).
     decay : float
         Stop rule: the run ends when the DFT fields change by less than this
         fraction over one period of the highest sampled frequency.
