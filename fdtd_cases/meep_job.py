@@ -3,7 +3,7 @@
 This is the only module of the package that imports Meep. It reads every
 position from a :class:`fdtd_cases.layout.Layout` and returns plain numpy
 arrays: the DFT tangential fields on the monitor lines (on Meep's Yee grid),
-Meep's own flux through the same lines (kept for cross-checks only), the
+Meep's own flux through the same lines (only when asked, for cross-checks), the
 Fourier transform of the source current, and run facts.
 
 A job of a point source is one node of the integral over the out-of-plane
@@ -254,7 +254,8 @@ def _check_epsilon(sim, case, layout, x0):
                                "the geometry was not built as laid out")
 
 
-def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, wavelength=None, kz_mode=KZ_MODE):
+def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, wavelength=None, kz_mode=KZ_MODE,
+            cross_check=False):
     """Run one job and return its raw results.
 
     For a node of a point source, ``kz`` (cycles per µm) and ``wavelength``
@@ -264,8 +265,10 @@ def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, 
     -------
     dict
         ``lines``: name -> {start, end, normal, fields: {component: complex
-        array (n_wavelengths, n_points)}}; ``meep_flux``: name -> outward flux
-        per wavelength from Meep's own monitors; ``source_current``: complex
+        array (n_wavelengths, n_points)}}; with ``cross_check``, ``meep_flux``:
+        name -> outward flux per wavelength from Meep's own monitors on the same
+        lines (off by default: they cost time and the answer does not use them);
+        ``source_current``: complex
         Fourier transform of the source current per wavelength (Meep's
         ``ldos_Jdata``); ``time_steps``, ``meep_time``, ``wall_time`` (s),
         ``grid_points``, ``stopped_by_decay`` (False when the safety limit
@@ -291,8 +294,9 @@ def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, 
         center, size = _region(start, end, layout.resolution)
         dft[name] = sim.add_dft_fields([_MEEP_COMPONENT[c] for c in saved], freqs, center=center, size=size,
                                        yee_grid=True)
-        weight = -1.0 if normal.startswith("-") else 1.0
-        flux[name] = sim.add_flux(freqs, mp.FluxRegion(center=center, size=size, weight=weight))
+        if cross_check:
+            weight = -1.0 if normal.startswith("-") else 1.0
+            flux[name] = sim.add_flux(freqs, mp.FluxRegion(center=center, size=size, weight=weight))
     picture = None
     if field_map:
         along_z = "ez" if orientation == "out-of-plane" else "hz"  # the component along z of its polarisation
@@ -310,7 +314,6 @@ def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, 
         out_lines[name] = {"start": start, "end": end, "normal": normal, "fields": fields}
     result = {
         "lines": out_lines,
-        "meep_flux": {name: np.array(mp.get_fluxes(obj)) for name, obj in flux.items()},
         "source_current": np.array(sim.ldos_Jdata, dtype=complex),
         "time_steps": int(sim.fields.t),
         "meep_time": float(sim.meep_time()),
@@ -318,6 +321,8 @@ def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, 
         "stopped_by_decay": bool(sim.meep_time() < limit),
         "meep_version": mp.__version__,
     }
+    if cross_check:
+        result["meep_flux"] = {name: np.array(mp.get_fluxes(obj)) for name, obj in flux.items()}
     if picture is not None:
         along_z, obj = picture
         values = np.abs(sim.get_dft_array(obj, _MEEP_COMPONENT[along_z], 0)).T.astype(np.float32)

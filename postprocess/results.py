@@ -16,7 +16,8 @@ Layout (all lengths µm; complex arrays are HDF5 compound types (r, i)):
 /jobs/NNN/source_current           Fourier transform of the source current, per wavelength
 /jobs/NNN/lines/NAME               attrs: start, end, normal; datasets: one per saved
                                    field component (n_wavelengths, n_samples), Yee grid
-/jobs/NNN/meep_flux/NAME           Meep's own outward flux per wavelength (cross-check)
+/jobs/NNN/meep_flux/NAME           Meep's own outward flux per wavelength (cross-check; only in
+                                   files written before 2026-12-03 or by run_job(cross_check=True))
 /jobs/NNN/field_map                (``run --fields`` only) float32 (ny, nx): magnitude of the
                                    field along z (Ez or Hz) at the centre wavelength, from a DFT
                                    over the cell inside the absorbing layers; attrs: component,
@@ -73,7 +74,7 @@ def write_results(path, *, case_file, case_text, resolved_toml, layout, jobs, ra
                 lg.attrs.update({"start": line["start"], "end": line["end"], "normal": line["normal"]})
                 for component, values in line["fields"].items():
                     lg[component] = values
-            for name, values in result["meep_flux"].items():
+            for name, values in result.get("meep_flux", {}).items():
                 g[f"meep_flux/{name}"] = values
             if "field_map" in result:
                 picture = result["field_map"]
@@ -119,7 +120,8 @@ def read_results(path):
                        "normal": _plain(g["lines"][line].attrs["normal"]),
                        "fields": {c: g["lines"][line][c][()] for c in g["lines"][line]}}
                 for line in g["lines"]}
-            job["meep_flux"] = {k: g["meep_flux"][k][()] for k in g["meep_flux"]}
+            if "meep_flux" in g:
+                job["meep_flux"] = {k: g["meep_flux"][k][()] for k in g["meep_flux"]}
             if "field_map" in g:
                 job["field_map"] = {"magnitude": g["field_map"][()],
                                     **{k: _plain(v) for k, v in g["field_map"].attrs.items()}}

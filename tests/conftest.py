@@ -112,10 +112,11 @@ def run_case(data, workers=2):
     return outcouple.run(data, workers=workers, progress=False).to_dict()
 
 
-def run_in_process(data, orientation, x=0.0, symmetric=True, kz=None, wavelength=None):
+def run_in_process(data, orientation, x=0.0, symmetric=True, kz=None, wavelength=None, cross_check=False):
     """Validate a case dict, run one job in this process and return (case, layout, raw result, fluxes).
 
     ``kz`` (in units of k0 = 2 pi / ``wavelength``): one node of a point source, at that wavelength.
+    ``cross_check``: also Meep's own flux monitors on the same lines (raw["meep_flux"]).
     """
     from fdtd_cases.case_file import parse_case
     from fdtd_cases.layout import make_layout
@@ -125,5 +126,5 @@ def run_in_process(data, orientation, x=0.0, symmetric=True, kz=None, wavelength
     case = parse_case(data)
     layout = make_layout(case)
     bloch = {} if kz is None else {"kz": kz / wavelength, "wavelength": wavelength}
-    raw = run_job(case, layout, orientation, x, symmetric and layout.symmetric, **bloch)
+    raw = run_job(case, layout, orientation, x, symmetric and layout.symmetric, cross_check=cross_check, **bloch)
     return case, layout, raw, job_fluxes(raw["lines"], layout.resolution)

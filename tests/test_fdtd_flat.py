@@ -30,7 +30,7 @@ def test_flat_half_space_against_exact(n_chip, orientation):
     """Efficiency within 2% of the exact angular-spectrum answer (references.planar, derived there and
     checked against tmm and closed forms); lossless balance within 2%; our flux integration against
     Meep's own flux monitors."""
-    case, layout, raw, flux = run_in_process(flat_case(n_chip), orientation)
+    case, layout, raw, flux = run_in_process(flat_case(n_chip), orientation, cross_check=True)
     ours = flux["top"][0] / flux["emitted"][0]
     exact = planar.half_space(n_chip, 1.0, 0.35, 1.0, orientation)
     assert ours == pytest.approx(exact["efficiency"], rel=0.02), \
