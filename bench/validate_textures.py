@@ -22,6 +22,7 @@ narrower case: 33 s a run at the default grid there (100 s on the 12 µm case).
     .venv/bin/python bench/validate_textures.py                   # all, writes the JSON
     .venv/bin/python bench/validate_textures.py triangle          # one texture, writes its entry
     .venv/bin/python bench/validate_textures.py sine print        # one texture, prints only
+    .venv/bin/python bench/validate_textures.py independent       # the triangle by a plain Meep script
 """
 
 import json
@@ -75,7 +76,45 @@ def independent_grating(resolution, n=2.5, depth=1.0, width=12.0, pml=1.0):
     return mp.get_fluxes(top)[0] / sum(mp.get_fluxes(b)[0] for b in box)
 
 
+def independent_triangle(resolution, n=2.5, depth=1.0, width=12.0, pml=1.0):
+    """Out-of-plane line emitter under the V-grooves by a plain Meep script: top flux / emitted flux.
+
+    The chip is one ``mp.Prism`` whose vertices are computed here (not by fdtd_cases.geometry);
+    Meep's own point source and ``add_flux`` monitors, as in :func:`independent_grating`.
+    """
+    import meep as mp
+
+    mp.verbosity(0)
+    chip = mp.Medium(index=n)
+    sx, y_top, y_bottom = width + 2 * pml, 0.6 + 0.4 + pml, -depth - 1.0 - pml
+    sy, yc = y_top - y_bottom, (y_top + y_bottom) / 2
+    reach = int(sx / PERIOD) + 2
+    vertices = [mp.Vector3(k * PERIOD / 2, 0.0 if k % 2 == 0 else -HEIGHT) for k in range(-2 * reach, 2 * reach + 1)]
+    vertices += [mp.Vector3(reach * PERIOD, y_bottom - 1), mp.Vector3(-reach * PERIOD, y_bottom - 1)]
+    source = mp.Source(mp.GaussianSource(1.0, fwidth=0.5), component=mp.Ez, center=mp.Vector3(0, -depth))
+    sim = mp.Simulation(cell_size=mp.Vector3(sx, sy), geometry_center=mp.Vector3(0, yc), resolution=resolution,
+                        boundary_layers=[mp.PML(pml)], sources=[source], symmetries=[mp.Mirror(mp.X)],
+                        geometry=[mp.Prism(vertices=vertices, height=mp.inf, material=chip)])
+    top = sim.add_flux([1.0], mp.FluxRegion(center=mp.Vector3(0, 0.6), size=mp.Vector3(width, 0)))
+    a = 0.15
+    box = [sim.add_flux([1.0], mp.FluxRegion(center=mp.Vector3(0, -depth + s * a), size=mp.Vector3(2 * a, 0), weight=s))
+           for s in (1, -1)]
+    box += [sim.add_flux([1.0], mp.FluxRegion(center=mp.Vector3(s * a, -depth), size=mp.Vector3(0, 2 * a), weight=s))
+            for s in (1, -1)]
+    sim.run(until_after_sources=mp.stop_when_dft_decayed(tol=1e-8, minimum_run_time=50))
+    return mp.get_fluxes(top)[0] / sum(mp.get_fluxes(b)[0] for b in box)
+
+
 def main(args):
+    if "independent" in args:  # only the plain-script triangle, against the committed limit
+        plain = {r: independent_triangle(r) for r in (80, 120)}
+        fit = extrapolate(list(plain), list(plain.values()))
+        limit = json.loads(OUT.read_text())["limits"]["triangle"]["out-of-plane"]
+        print("triangle   out-of-plane by a plain Meep script (one prism, Meep's source and add_flux): "
+              + ", ".join(f"{v:.5f} at {r} points/um" for r, v in plain.items())
+              + f"; limit {fit['limit']:.5f}, the package's {limit:.5f} ({100 * (limit / fit['limit'] - 1):+.2f}%)",
+              flush=True)
+        return
     chosen = {k: v for k, v in TEXTURES.items() if not [a for a in args if a != "print"] or any(a in k for a in args)}
     converged = {}
     for name, (surface, levels, base) in chosen.items():
