@@ -49,52 +49,27 @@ TEXTURES = {
 }
 
 
-def independent_grating(resolution, n=2.5, depth=1.0, width=12.0, pml=1.0):
-    """Out-of-plane line emitter under the grating by a plain Meep script: top flux / emitted flux."""
-    import meep as mp
-
-    mp.verbosity(0)
-    chip = mp.Medium(index=n)
-    sx, y_top, y_bottom = width + 2 * pml, 0.6 + 0.4 + pml, -depth - 1.0 - pml
-    sy, yc = y_top - y_bottom, (y_top + y_bottom) / 2
-    geometry = [mp.Block(center=mp.Vector3(0, (y_bottom - 1 - HEIGHT) / 2), size=mp.Vector3(mp.inf, -HEIGHT - y_bottom + 1, mp.inf),
-                         material=chip)]
-    for k in range(-int(sx / PERIOD) - 1, int(sx / PERIOD) + 2):
-        geometry.append(mp.Block(center=mp.Vector3(k * PERIOD, -HEIGHT / 2), size=mp.Vector3(0.5 * PERIOD, HEIGHT, mp.inf),
-                                 material=chip))
-    source = mp.Source(mp.GaussianSource(1.0, fwidth=0.5), component=mp.Ez, center=mp.Vector3(0, -depth))
-    sim = mp.Simulation(cell_size=mp.Vector3(sx, sy), geometry_center=mp.Vector3(0, yc), resolution=resolution,
-                        boundary_layers=[mp.PML(pml)], geometry=geometry, sources=[source],
-                        symmetries=[mp.Mirror(mp.X)])
-    top = sim.add_flux([1.0], mp.FluxRegion(center=mp.Vector3(0, 0.6), size=mp.Vector3(width, 0)))
-    a = 0.15
-    box = [sim.add_flux([1.0], mp.FluxRegion(center=mp.Vector3(0, -depth + s * a), size=mp.Vector3(2 * a, 0), weight=s))
-           for s in (1, -1)]
-    box += [sim.add_flux([1.0], mp.FluxRegion(center=mp.Vector3(s * a, -depth), size=mp.Vector3(0, 2 * a), weight=s))
-            for s in (1, -1)]
-    sim.run(until_after_sources=mp.stop_when_dft_decayed(tol=1e-8, minimum_run_time=50))
-    return mp.get_fluxes(top)[0] / sum(mp.get_fluxes(b)[0] for b in box)
+PLAIN = {"n": 2.5, "depth": 1.0, "width": 12.0, "pml": 1.0}
+"""The plain scripts' chip and domain: BASE's chip and emitter, Meep's absorbing layers 1 µm thick."""
 
 
-def independent_triangle(resolution, n=2.5, depth=1.0, width=12.0, pml=1.0):
-    """Out-of-plane line emitter under the V-grooves by a plain Meep script: top flux / emitted flux.
+def _plain_efficiency(resolution, chip_objects):
+    """Top flux / emitted flux of an out-of-plane line emitter by a plain Meep script.
 
-    The chip is one ``mp.Prism`` whose vertices are computed here (not by fdtd_cases.geometry);
-    Meep's own point source and ``add_flux`` monitors, as in :func:`independent_grating`.
+    ``chip_objects(chip, x_span, y_bottom)`` returns the chip's Meep objects; the rest (Meep's own
+    point source, ``add_flux`` on a top line and on a square around the emitter, the stop rule)
+    uses none of the package's code.
     """
     import meep as mp
 
     mp.verbosity(0)
-    chip = mp.Medium(index=n)
+    depth, width, pml = PLAIN["depth"], PLAIN["width"], PLAIN["pml"]
     sx, y_top, y_bottom = width + 2 * pml, 0.6 + 0.4 + pml, -depth - 1.0 - pml
     sy, yc = y_top - y_bottom, (y_top + y_bottom) / 2
-    reach = int(sx / PERIOD) + 2
-    vertices = [mp.Vector3(k * PERIOD / 2, 0.0 if k % 2 == 0 else -HEIGHT) for k in range(-2 * reach, 2 * reach + 1)]
-    vertices += [mp.Vector3(reach * PERIOD, y_bottom - 1), mp.Vector3(-reach * PERIOD, y_bottom - 1)]
     source = mp.Source(mp.GaussianSource(1.0, fwidth=0.5), component=mp.Ez, center=mp.Vector3(0, -depth))
     sim = mp.Simulation(cell_size=mp.Vector3(sx, sy), geometry_center=mp.Vector3(0, yc), resolution=resolution,
                         boundary_layers=[mp.PML(pml)], sources=[source], symmetries=[mp.Mirror(mp.X)],
-                        geometry=[mp.Prism(vertices=vertices, height=mp.inf, material=chip)])
+                        geometry=chip_objects(mp.Medium(index=PLAIN["n"]), sx, y_bottom))
     top = sim.add_flux([1.0], mp.FluxRegion(center=mp.Vector3(0, 0.6), size=mp.Vector3(width, 0)))
     a = 0.15
     box = [sim.add_flux([1.0], mp.FluxRegion(center=mp.Vector3(0, -depth + s * a), size=mp.Vector3(2 * a, 0), weight=s))
@@ -103,6 +78,31 @@ def independent_triangle(resolution, n=2.5, depth=1.0, width=12.0, pml=1.0):
             for s in (1, -1)]
     sim.run(until_after_sources=mp.stop_when_dft_decayed(tol=1e-8, minimum_run_time=50))
     return mp.get_fluxes(top)[0] / sum(mp.get_fluxes(b)[0] for b in box)
+
+
+def independent_grating(resolution):
+    """The grating's out-of-plane emitter by a plain Meep script: ridges as ``mp.Block``."""
+    import meep as mp
+
+    def blocks(chip, sx, y_bottom):
+        body = mp.Block(center=mp.Vector3(0, (y_bottom - 1 - HEIGHT) / 2), size=mp.Vector3(mp.inf, -HEIGHT - y_bottom + 1, mp.inf),
+                        material=chip)
+        return [body] + [mp.Block(center=mp.Vector3(k * PERIOD, -HEIGHT / 2), size=mp.Vector3(0.5 * PERIOD, HEIGHT, mp.inf),
+                                  material=chip) for k in range(-int(sx / PERIOD) - 1, int(sx / PERIOD) + 2)]
+    return _plain_efficiency(resolution, blocks)
+
+
+def independent_triangle(resolution):
+    """The V-grooves' out-of-plane emitter by a plain Meep script: the chip as one ``mp.Prism`` whose
+    vertices are computed here (not by fdtd_cases.geometry)."""
+    import meep as mp
+
+    def prism(chip, sx, y_bottom):
+        reach = int(sx / PERIOD) + 2
+        vertices = [mp.Vector3(k * PERIOD / 2, 0.0 if k % 2 == 0 else -HEIGHT) for k in range(-2 * reach, 2 * reach + 1)]
+        vertices += [mp.Vector3(reach * PERIOD, y_bottom - 1), mp.Vector3(-reach * PERIOD, y_bottom - 1)]
+        return [mp.Prism(vertices=vertices, height=mp.inf, material=chip)]
+    return _plain_efficiency(resolution, prism)
 
 
 def main(args):
