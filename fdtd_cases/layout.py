@@ -208,7 +208,8 @@ def back_return_reach(case):
     """How far from the emitter (µm) light of the escape cone comes back to the top after one
     reflection at the back side; 0 for a chip without a reflecting back.
 
-    A finite chip on a mirror or a substrate sends part of the light inside the escape cone
+    A finite chip on a mirror, a substrate or a metal back (the last for the ray tracer, which uses
+    the same domain) sends part of the light inside the escape cone
     (sin theta_c = n_ambient / n_chip) back up, after a path of 2 t - d down and up again (t the
     thickness, d the emitter's depth), so it reaches the top up to (2 t - d) tan theta_c away. A
     window narrower than that loses it, and with it the interference it makes with the direct

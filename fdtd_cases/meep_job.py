@@ -153,12 +153,12 @@ def chip_objects(surface, polygon, material, cell):
     if surface.pattern != "grating":
         surface_line = polygon[:-2]  # geometry.chip_polygon: the surface, then two bottom corners
         deepest = surface_line[:, 1].min()
-        band_bottom, body_top = deepest - 4 * cell, deepest - 2 * cell
+        band_bottom, body_top = max(deepest - 4 * cell, y_bottom), deepest - 2 * cell
         objects = []
-        if band_bottom > y_bottom:
+        if band_bottom > y_bottom:  # else the chip is too thin for a body below the band
             objects.append(mp.Block(center=mp.Vector3((x_min + x_max) / 2, (y_bottom + body_top) / 2),
                                     size=mp.Vector3(x_max - x_min, body_top - y_bottom, mp.inf), material=material))
-        band = np.vstack([surface_line, [[x_max, max(band_bottom, y_bottom)], [x_min, max(band_bottom, y_bottom)]]])
+        band = np.vstack([surface_line, [[x_max, band_bottom], [x_min, band_bottom]]])
         return objects + [mp.Prism(vertices=[mp.Vector3(x, y) for x, y in band], height=mp.inf, material=material)]
     h = surface.height
     objects = [mp.Block(center=mp.Vector3((x_min + x_max) / 2, (y_bottom - h) / 2),
