@@ -18,6 +18,10 @@ a group name, or a part of a case's name; none runs all.
     .venv/bin/python bench/validate_point.py "n = 2.5"   # cases whose name contains "n = 2.5"
     .venv/bin/python bench/validate_point.py flat ppw=24 # a finer grid than the default 16
     .venv/bin/python bench/validate_point.py flat width=16  # a wider domain (grid.width, um)
+    .venv/bin/python bench/validate_point.py flat one-grid  # without the second grid (grid.extrapolate)
+
+Point sources run on two grids by default (grid.extrapolate): the FDTD column is the extrapolated
+value, and "finer" the finer grid's own (the default resolution alone).
 """
 
 import sys
@@ -80,11 +84,15 @@ def cost(runs, elapsed):
 
 def main(args):
     grid = {}
+    if "one-grid" in args:
+        grid["extrapolate"] = False
+        args = [a for a in args if a != "one-grid"]
     for arg in [a for a in args if a.startswith(("ppw=", "width="))]:
         key, value = arg.split("=")
         grid[{"ppw": "points_per_wavelength", "width": "width"}[key]] = float(value)
         args = [a for a in args if a != arg]
-    print(f"{'case':<50} {'orientation':<13} {'source':<6} {'runs':>5} {'FDTD':>8} {'exact':>8} {'diff':>8}")
+    print(f"{'case':<50} {'orientation':<13} {'source':<6} {'runs':>5} {'FDTD':>8} {'exact':>8} {'diff':>8} "
+          f"{'finer':>8} {'diff':>8}")
     for name, data in chosen(args).items():
         for source in ("point", "line"):
             case = {**data, "emitter": {**data["emitter"], "orientation": "isotropic", "source": source}, "grid": grid}
@@ -95,10 +103,20 @@ def main(args):
                 elapsed = time.perf_counter() - started
                 runs = read_results(output)["jobs"]
             ref = result["reference"]
+            grids = result.get("grids")
             for orientation, value in [*result["by_orientation"].items(), ("combined", result["efficiency"])]:
                 exact = ref["efficiency"] if orientation == "combined" else ref["by_orientation"][orientation]
+                finer = ""
+                if grids:
+                    own = grids["efficiency" if orientation == "combined" else "by_orientation"]
+                    own = own[0] if orientation == "combined" else own[orientation][0]
+                    finer = f" {own:>8.5f} {diff(own, exact):>8}"
                 print(f"{name:<50} {orientation:<13} {source:<6} {len(runs):>5} {value:>8.5f} {exact:>8.5f} "
-                      f"{diff(value, exact):>8}", flush=True)
+                      f"{diff(value, exact):>8}{finer}", flush=True)
+            if grids:
+                print(f"{'':<50} {'':<13} {source:<6} grids {grids['resolution'][0]:g} and "
+                      f"{grids['resolution'][1]:g} points/um, wall time {grids['wall_time'][0]:.0f} and "
+                      f"{grids['wall_time'][1]:.0f} s summed", flush=True)
             print(f"{'':<50} {'':<13} {source:<6} emission factor {result['emission_factor']:.4f} "
                   f"(exact {ref['emission_factor']:.4f})", flush=True)
             print(f"{'':<50} {'':<13} {source:<6} {cost(runs, elapsed)}", flush=True)

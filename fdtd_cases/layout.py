@@ -25,7 +25,7 @@ Side monitors run from y_bottom to y_top at x = -width/2 and x = +width/2.
 """
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -81,6 +81,8 @@ class Layout:
     fcen: float
     fwidth: float
     warnings: tuple = ()
+    second: "Layout | None" = field(default=None, repr=False)
+    """The coarser grid of a two-grid run (``grid.extrapolate``), or None."""
 
     @property
     def cell(self):
@@ -136,13 +138,13 @@ def snap_down(value, resolution):
 
 def _resolution(case, wavelengths, source, warnings):
     grid = case.grid
-    n_max = max(_indices(case).values())
+    n_max = max(material_indices(case).values())
     lam_min = wavelengths.min()
     if grid.resolution is not None:
         resolution, key = grid.resolution, "grid.resolution"
     else:
         resolution, key = math.ceil(grid.points_per_wavelength * n_max / lam_min), "grid.points_per_wavelength"
-    ppw = {name: lam_min * resolution / n for name, n in _indices(case).items()}
+    ppw = {name: lam_min * resolution / n for name, n in material_indices(case).items()}
     worst = min(ppw.values())
     if worst < MIN_PPW_ERROR:
         raise CaseError(source, key, f"gives {worst:.1f} points per wavelength in the densest material at "
@@ -153,7 +155,7 @@ def _resolution(case, wavelengths, source, warnings):
     return resolution, ppw
 
 
-def _indices(case):
+def material_indices(case):
     """Real index of every material of the FDTD domain, by name."""
     found = {"chip": case.chip.index, "ambient": case.ambient.index}
     for i, film in enumerate(case.film):
@@ -184,22 +186,6 @@ def _period(surface):
     return getattr(surface, "period", None) or getattr(surface, "correlation", 0.0)
 
 
-GRID_ERROR = {"flat": 0.0023, "grating": 0.0031, "triangle": 0.0011, "sine": 0.0039}
-"""Measured error of a line-source run at 16 points per wavelength, divided by n^2 (n: the densest
-index), per surface kind; the estimate scales as (16 / points per wavelength)^2 (second-order
-convergence). Flat: bench/validate_line_grid.py, the worst orientation at n = 2.0, 2.5 and 3.5
-(0.9%, 1.15%, 2.8%: 0.0023 n^2 within 20%). Textures: bench/validate_textures.py at n = 2.5, the
-worst of the combined and the two in-plane dipoles against the extrapolated limit (grating
-out-of-plane -1.90%, triangle out-of-plane -0.69%, sine parallel +2.40%). Random and profile
-surfaces take the largest textured value (not measured: their shapes are the user's)."""
-
-POINT_GRID_FACTOR = 2.0
-"""Point sources carry more grid error than line sources of the same case: measured on flat chips
-(worst dipole at 16 points per wavelength) +1.56% at n = 2.0 and +1.98% at n = 2.5
-(bench/validate_point.py), +1.73% at n = 2.0 in a 16 µm wide domain (test_fdtd_point.py), against
-0.0023 n^2 = 0.92% and 1.44% for line sources."""
-
-
 ESCAPE_ANGLE_CAP = math.radians(75.0)
 """The steepest angle :func:`back_return_reach` follows when the ambient is as dense as the chip."""
 
@@ -224,42 +210,6 @@ def back_return_reach(case):
     return (2 * case.chip.thickness - case.emitter.depth) * math.tan(angle)
 
 
-def grid_error_estimate(case, resolution):
-    """The expected relative error of the efficiency on this grid, and what it rests on.
-
-    From :data:`GRID_ERROR` (measured per surface kind), scaled by the densest index squared and by
-    (16 / points per wavelength)^2. An estimate from other chips, not a bound: ``outcouple converge``
-    measures a case's own error.
-    """
-    n_max = max(_indices(case).values())
-    ppw = float(case.light.wavelengths().min()) * resolution / n_max
-    kind = case.surface.pattern
-    per_n2 = GRID_ERROR.get(kind) or max(v for k, v in GRID_ERROR.items() if k != "flat")
-    measured = "measured" if kind in GRID_ERROR else "the largest measured on textures, not measured for this kind"
-    factor, point = (POINT_GRID_FACTOR, ", point dipoles") if case.emitter.source == "point" else (1.0, "")
-    return {"estimate": factor * per_n2 * n_max ** 2 * (16.0 / ppw) ** 2, "points_per_wavelength": ppw,
-            "basis": f"{kind} surfaces{point} ({measured}), scaled as the square of the grid step"}
-
-
-def positions_needed(case):
-    """Emitter positions, evenly over one period, that average a periodic pattern to about 1%; None otherwise.
-
-    Where the emitter sits in the period matters through the interference of plane waves in the
-    chip that differ by a multiple m of the grating wavenumber 2 pi / period; both propagate only
-    while m < 2 n period / lambda, so the efficiency's dependence on x holds harmonics of the
-    period up to that m (higher ones are evanescent and fade with depth). N positions i period / N
-    (the trapezoid rule) average harmonics below N exactly, hence N = floor(2 n period / lambda) + 1
-    at the shortest wavelength. Measured (tests/test_ensembles.py, out-of-plane line emitter 0.6 µm
-    deep): n = 2, period 1 µm at 1 µm, the rule's 5 positions give the 20-position average to 0.10%,
-    4 positions to 1.5%, 2 to 12%, one to 22%.
-    """
-    period = getattr(case.surface, "period", None)
-    if period is None:
-        return None
-    lam = float(case.light.wavelengths().min())
-    return int(math.floor(2 * case.chip.index * period / lam)) + 1
-
-
 OPAQUE = 5.0
 """alpha x thickness above which a layer warns: exp(-5) = 0.7% of the light survives one pass."""
 
@@ -278,11 +228,51 @@ def _warn_opaque(case, warnings):
                                               "is in 1/cm (a value per metre is 100 times too large)"))
 
 
+SECOND_GRID = 0.75
+"""The second grid of a two-grid run, as a fraction of the resolution (12 of 16 points per wavelength).
+
+Measured with bench/validate_point_two_grids.py: point dipoles under flat surfaces at 12 and 16 points
+per wavelength extrapolate to within 1% of the exact 3-D dipole (16 alone: up to 2%), at 1.42 times
+the cost of the finer run alone (a 2-D run costs about resolution^3)."""
+
+
+def at_resolution(case, resolution):
+    """The case on one grid of ``resolution`` points per µm (a convergence level, a run's second grid)."""
+    grid = case.grid.model_copy(update={"resolution": float(resolution), "extrapolate": False})
+    return case.model_copy(update={"grid": grid})
+
+
+def _second_grid(case, layout, source):
+    """The second grid's layout when the case asks for one (``grid.extrapolate``), and any warning.
+
+    Left out with a warning when the default asked for it and the coarser grid would not be valid
+    (fewer than MIN_PPW_ERROR points per wavelength, a film thinner than two cells, ...); refused
+    when the case file asked for it.
+    """
+    wanted = case.grid.extrapolate
+    if wanted is None:
+        wanted = case.emitter.source == "point"
+    if not wanted:
+        return None, None
+    coarse = float(round(layout.resolution * SECOND_GRID))
+    try:
+        second = make_layout(at_resolution(case, coarse), source=f"{source} (second grid, {coarse:g} points/µm)")
+    except CaseError as error:
+        if case.grid.extrapolate:
+            raise CaseError(source, "grid.extrapolate", f"needs a second grid at {coarse:g} points/µm "
+                            f"({SECOND_GRID:g} of the resolution), where {error.key} {error.message}; "
+                            "refine the grid or set grid.extrapolate = false") from None
+        return None, ("grid.extrapolate", f"off (one grid): the second grid at {coarse:g} points/µm would not "
+                      f"be valid ({error.key} {error.message}); expect the single grid's error")
+    return second, None
+
+
 def make_layout(case, source="case", fdtd=True):
     """Derive the grid-aligned domain of ``case`` and check what needs the grid.
 
     With ``fdtd=False`` (the ray tracer's use of the same domain) the cases
     only the FDTD cannot model yet (metal backs, films on a pattern) pass.
+    A two-grid run (``grid.extrapolate``) carries its second grid's layout as ``second``.
 
     Raises
     ------
@@ -396,7 +386,7 @@ def make_layout(case, source="case", fdtd=True):
     f = 1.0 / wavelengths
     fcen = float((f.max() + f.min()) / 2)
     fwidth = float(max(2 * (f.max() - f.min()), 0.5 * fcen))
-    return Layout(
+    layout = Layout(
         resolution=resolution, wavelengths=wavelengths, width=width, pml=pml, cell_x=cell_x,
         cell_y=cell_y, y_center=y_center, y_top=y_top, y_bottom=y_bottom, x_side=half,
         contour=contour, depth=depth, pattern_bottom=pattern_bottom, polyline=polyline,
@@ -405,6 +395,10 @@ def make_layout(case, source="case", fdtd=True):
         mirror_y=mirror_y, bottom_pml=bottom_pml, films=films, substrate_y=substrate_y, symmetric=symmetric, points_per_wavelength=ppw,
         fcen=fcen, fwidth=fwidth, warnings=tuple(warnings),
     )
+    if not fdtd:
+        return layout
+    second, warning = _second_grid(case, layout, source)
+    return replace(layout, second=second, warnings=layout.warnings + ((warning,) if warning else ()))
 
 
 def _smallest_feature(surface):

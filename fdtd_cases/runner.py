@@ -18,7 +18,7 @@ from . import kz, slab_modes
 
 
 def plan_jobs(case, layout, guided=None):
-    """The jobs of a case: one per orientation and lateral position.
+    """The jobs of a case: one per orientation and lateral position (and per kz node, and grid).
 
     Mirror symmetry about x = 0 is used when the pattern is symmetric and the
     emitter sits on the mirror plane (x = 0). A point source has one job per
@@ -28,7 +28,18 @@ def plan_jobs(case, layout, guided=None):
     field picture when asked: the smallest kz at the centre wavelength); ``guided`` maps a wavelength's index to the effective
     indices of the flat stack's guided modes there, from the exact solver: where it names any, the
     integral breaks at the indices the grid carries them at (:mod:`fdtd_cases.slab_modes`).
+    A two-grid run (``layout.second``) adds the same jobs planned on the second grid, each
+    carrying that grid's ``resolution`` and no picture; jobs of the case's own grid carry none.
     """
+    jobs = _grid_jobs(case, layout, guided)
+    if layout.second is not None:
+        jobs += [{**job, "resolution": float(layout.second.resolution), "picture": False}
+                 for job in _grid_jobs(case, layout.second, guided)]
+    return jobs
+
+
+def _grid_jobs(case, layout, guided):
+    """The jobs of one grid (see :func:`plan_jobs`)."""
     jobs = [{"orientation": orientation, "x": float(x), "symmetric": bool(layout.symmetric and x == 0.0)}
             for orientation in case.emitter.orientations() for x in case.emitter.x]
     if case.emitter.source == "line":
@@ -42,6 +53,15 @@ def plan_jobs(case, layout, guided=None):
         nodes += [{"wavelength": float(wavelength), "kz": float(a), "kz_weight": float(b),
                    "picture": bool(i == centre and j == int(np.argmin(u)))} for j, (a, b) in enumerate(zip(u, w))]
     return [{**job, **node} for job in jobs for node in nodes]
+
+
+def layout_of_job(layout, job):
+    """The layout a planned job runs on: the case's own, or its second grid (a job with ``resolution``)."""
+    if job.get("resolution", layout.resolution) == layout.resolution:
+        return layout
+    if layout.second is None or layout.second.resolution != job["resolution"]:
+        raise ValueError(f"a job planned for {job['resolution']:g} points/µm, and the case's layout has no such grid")
+    return layout.second
 
 
 ORPHAN_CHECK_SECONDS = 1.0
@@ -78,6 +98,7 @@ def _quiet_worker(parent):
 def run_planned(case, layout, job, field_map=False):
     """Run one planned job (:func:`plan_jobs`) in this process: a line job, or one kz node of a point source."""
     from .meep_job import run_job
+    layout = layout_of_job(layout, job)
     field_map = field_map and job.get("picture", True)
     if "kz" in job:  # a node of a point source: Meep takes kz in cycles per µm
         return run_job(case, layout, job["orientation"], job["x"], job["symmetric"], field_map=field_map,
@@ -124,10 +145,10 @@ def run_many(items, workers=None, progress=True, on_result=None, on_error=None):
     first failure is raised.
     """
     workers = max(1, min(workers or os.cpu_count() or 1, len(items)))
-    context = multiprocessing.get_context("spawn")
     results = [None] * len(items)
     bar = tqdm(total=len(items), desc="FDTD jobs", unit="job", file=sys.stderr, disable=not progress,
                bar_format="{desc}: {n_fmt}/{total_fmt} |{bar}| {elapsed} elapsed, {remaining} left")
+    context = multiprocessing.get_context("spawn")
     with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_quiet_worker,
                              initargs=(os.getpid(),)) as pool:
         futures = {pool.submit(run_planned, *item): i for i, item in enumerate(items)}

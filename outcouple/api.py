@@ -24,7 +24,8 @@ from fdtd_cases.case import Case, Collection
 from fdtd_cases.case_file import load_case as _read_case_file
 from fdtd_cases.case_file import parse_case, resolved_dict
 from fdtd_cases.errors import CaseError
-from fdtd_cases.layout import grid_error_estimate, make_layout, positions_needed
+from fdtd_cases.accuracy import grid_error_estimate, positions_needed
+from fdtd_cases.layout import make_layout
 from fdtd_cases.runner import run_jobs
 from postprocess import analysis, farfield
 from postprocess.results import read_results, write_results
@@ -127,6 +128,8 @@ def check(case):
     layout = layout_of(case)
     jobs = jobs_of(case, layout)
     est = layout.estimate(case.chip.index)
+    second = layout.second.estimate(case.chip.index) if layout.second is not None else None
+    seconds = sum(est["seconds"] if "resolution" not in job else second["seconds"] for job in jobs)
     workers = max(1, min(os.cpu_count() or 1, len(jobs)))
     facts = {name: getattr(layout, name) for name in ("resolution", "cell_x", "cell_y", "pml", "grid_points",
                                                       "y_top", "y_bottom", "x_side", "contour", "symmetric")}
@@ -135,7 +138,8 @@ def check(case):
         "points_per_wavelength": dict(layout.points_per_wavelength), "jobs": len(jobs),
         "orientations": list(case.emitter.orientations()), "positions": len(case.emitter.x),
         "source": case.emitter.source,
-        "estimate": est, "workers": workers, "seconds_in_all": est["seconds"] * len(jobs) / workers,
+        "estimate": est, "workers": workers, "seconds_in_all": seconds / workers,
+        "second_grid": layout.second.resolution if layout.second is not None else None,
         "collection_half_angle": case.collection.degrees(case.ambient.index) if case.collection else None,
         "warnings": list(layout.warnings), "positions_needed": positions_needed(case),
         "grid_error": grid_error_estimate(case, layout.resolution),
@@ -186,7 +190,7 @@ def run(case, workers=None, fields=False, progress=True, output=None, na=None):
         summary["result_file"] = str(output)
         source, text = case._origin
         resolved = tomli_w.dumps(resolved_dict(case))
-        # Meep is imported only in the workers (it prints on standard output), which report its version.
+        # Meep is imported only where jobs run (it prints on standard output), and they report its version.
         write_results(output, case_file=source, case_text=text if text is not None else resolved,
                       resolved_toml=resolved, layout=layout, jobs=jobs, raw=raw, summary=summary,
                       versions={"package_version": __version__, "meep_version": raw[0]["meep_version"]})

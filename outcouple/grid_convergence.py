@@ -9,7 +9,7 @@ chooses the levels.
 """
 
 from fdtd_cases.errors import CaseError
-from fdtd_cases.layout import MIN_PPW_ERROR, make_layout
+from fdtd_cases.layout import MIN_PPW_ERROR, at_resolution, make_layout
 from fdtd_cases.runner import run_cases
 from postprocess.convergence import extrapolate
 
@@ -32,8 +32,7 @@ def levels(case, source, resolutions=None):
         resolutions = [float(round(base.resolution * f)) for f in factors]
     out = []
     for resolution in sorted(set(resolutions)):
-        grid = case.grid.model_copy(update={"resolution": float(resolution)})
-        level = case.model_copy(update={"grid": grid})
+        level = at_resolution(case, resolution)  # one grid per level: the levels are the grids
         where = f"{source} (at resolution {resolution:g})"
         if densest * resolution / base.resolution < MIN_PPW_ERROR:
             raise CaseError("command line", "--resolutions", f"{resolution:g} points/µm gives fewer than "

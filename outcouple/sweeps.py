@@ -112,11 +112,14 @@ def _label(values):
     return ", ".join(f"{k} = {v:g}" for k, v in values.items())
 
 
-def job_id(resolved_toml, orientation, x, wavelength=None, kz=None):
-    """Hash of a job's inputs and the result-format version (a point source's node adds its wavelength and kz)."""
+def job_id(resolved_toml, orientation, x, wavelength=None, kz=None, resolution=None):
+    """Hash of a job's inputs and the result-format version (a point source's node adds its wavelength and kz,
+    a job on a two-grid run's second grid its resolution)."""
     text = f"format {FORMAT_VERSION}\n{resolved_toml}\norientation {orientation}\nx {x!r}\n"
     if kz is not None:
         text += f"wavelength {wavelength!r}\nkz {kz!r}\n"
+    if resolution is not None:
+        text += f"resolution {resolution!r}\n"
     return hashlib.sha256(text.encode()).hexdigest()[:20]
 
 
@@ -136,7 +139,8 @@ def plan(data, source):
         case = parse_case(point, source=where)
         layout = make_layout(case, source=where)
         resolved = tomli_w.dumps(resolved_dict(case))
-        jobs = [{**job, "id": job_id(resolved, job["orientation"], job["x"], job.get("wavelength"), job.get("kz"))}
+        jobs = [{**job, "id": job_id(resolved, job["orientation"], job["x"], job.get("wavelength"), job.get("kz"),
+                                     job.get("resolution"))}
                 for job in jobs_of(case, layout)]
         points.append({"values": values, "case_toml": resolved, "jobs": jobs})
     collection = parse_case(data, source=source).collection

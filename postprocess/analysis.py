@@ -10,6 +10,10 @@ import numpy as np
 
 from . import farfield, hemisphere
 from .budget import bulk_power, job_fluxes, point_sources, summarise
+from .convergence import FORMAL_ORDER, two_grids
+
+AXES = ("angle", "theta_z", "alpha")
+"""Far-field entries that are angles, not powers."""
 
 
 def analyse(case, jobs, wavelengths, resolution):
@@ -20,12 +24,83 @@ def analyse(case, jobs, wavelengths, resolution):
     case : fdtd_cases.case.Case
     jobs : list of dict
         Each with ``orientation``, ``x``, ``lines`` and ``source_current``
-        (and for a point source ``wavelength``, ``kz``, ``kz_weight``).
+        (and for a point source ``wavelength``, ``kz``, ``kz_weight``; a job of a
+        two-grid run's second grid has its ``resolution``).
     wavelengths : array
         Sampled vacuum wavelengths, µm.
     resolution : float
-        Grid points per µm.
+        Grid points per µm of the run (of the jobs without their own ``resolution``).
     """
+    grids = {}
+    for job in jobs:
+        grids.setdefault(float(job.get("resolution", resolution)), []).append(job)
+    if len(grids) > 2:
+        raise ValueError(f"jobs of {len(grids)} grids ({sorted(grids)} points/µm); a run has one or two")
+    (r_fine, fine), *coarse = sorted(grids.items(), reverse=True)
+    summary = _analyse_grid(case, fine, wavelengths, r_fine)
+    if coarse:
+        (r_coarse, coarse), = coarse
+        summary = extrapolated(summary, _analyse_grid(case, coarse, wavelengths, r_coarse), r_fine, r_coarse)
+    return summary
+
+
+def extrapolated(fine, coarse, r_fine, r_coarse):
+    """A two-grid run's summary: every flux-derived number extrapolated (Richardson, order 2), the rest the finer grid's.
+
+    Extrapolated: the efficiency, its spectrum, per orientation, per position and per job, the budget
+    and the emission factor. The far field keeps the finer grid's shape, scaled by the extrapolated
+    over the finer efficiency (per orientation for each orientation's pattern), so that its integral
+    stays the efficiency; the balance error is the larger of the two grids'. ``grids`` records both
+    grids' own values.
+    """
+    def rich(a, b):
+        value = two_grids(a, b, r_fine, r_coarse)
+        return value.tolist() if np.ndim(value) else float(value)
+
+    out = dict(fine)
+    for key in ("efficiency", "efficiency_spectrum", "emission_factor"):
+        out[key] = rich(fine[key], coarse[key])
+    out["by_orientation"] = {o: rich(v, coarse["by_orientation"][o]) for o, v in fine["by_orientation"].items()}
+    out["budget"] = {k: rich(v, coarse["budget"][k]) for k, v in fine["budget"].items()}
+    if fine.get("balance_error") is not None:
+        out["balance_error"] = max(fine["balance_error"], coarse["balance_error"])
+    if "positions" in fine:
+        values = rich(fine["positions"]["efficiency"], coarse["positions"]["efficiency"])
+        out["positions"] = {"x": fine["positions"]["x"], "efficiency": values, "mean": float(np.mean(values)),
+                            "spread": float(np.std(values)), "min": min(values), "max": max(values)}
+    twins = {(j["orientation"], j["x"]): j for j in coarse["jobs"]}
+    out["jobs"] = []
+    for job in fine["jobs"]:
+        twin = twins[(job["orientation"], job["x"])]
+        out["jobs"].append({**job, **{k: rich(job[k], twin[k]) for k in ("efficiency", "emission_factor",
+                                                                        "efficiency_spectrum")},
+                            "budget": {k: rich(v, twin["budget"][k]) for k, v in job["budget"].items()}})
+    ratio = out["efficiency"] / fine["efficiency"] if fine["efficiency"] > 0 else 1.0
+    ratios = {o: out["by_orientation"][o] / v if v > 0 else 1.0 for o, v in fine["by_orientation"].items()}
+    out["farfield"] = {k: v if k in AXES else
+                       {o: _scaled(p, ratios[o]) for o, p in v.items()} if k == "by_orientation" else
+                       _scaled(v, ratio) for k, v in fine["farfield"].items()}
+    out["grids"] = {
+        "resolution": [r_fine, r_coarse], "order": FORMAL_ORDER,
+        "efficiency": [fine["efficiency"], coarse["efficiency"]],
+        "by_orientation": {o: [v, coarse["by_orientation"][o]] for o, v in fine["by_orientation"].items()},
+        "wall_time": [sum(j.get("wall_time", 0.0) for j in fine["jobs"]),
+                      sum(j.get("wall_time", 0.0) for j in coarse["jobs"])],
+    }
+    return out
+
+
+def _scaled(tree, factor):
+    """A far-field entry (numbers, lists, dicts of them) times ``factor``, its angle axes left alone."""
+    if isinstance(tree, dict):
+        return {k: v if k in AXES else _scaled(v, factor) for k, v in tree.items()}
+    if isinstance(tree, list):
+        return [_scaled(v, factor) for v in tree]
+    return tree * factor
+
+
+def _analyse_grid(case, jobs, wavelengths, resolution):
+    """:func:`analyse` for jobs of one grid."""
     if case.emitter.source == "point":
         return _analyse_point(case, jobs, wavelengths, resolution)
     combined = [{"orientation": job["orientation"], "x": job["x"],

@@ -49,6 +49,15 @@ def observed_order(h, e):
     return float(brentq(mismatch, lo, hi, rtol=1e-10))
 
 
+def two_grids(fine, coarse, r_fine, r_coarse, order=FORMAL_ORDER):
+    """Richardson's value from two grids: fine + (fine - coarse) / ((r_fine / r_coarse)^order - 1).
+
+    ``fine`` and ``coarse`` are numbers or arrays of the same shape; ``r_*`` in points per µm.
+    """
+    fine, coarse = np.asarray(fine, dtype=float), np.asarray(coarse, dtype=float)
+    return fine + (fine - coarse) / ((r_fine / r_coarse) ** order - 1)
+
+
 def extrapolate(resolutions, values):
     """Richardson estimate of the grid-converged value and of each level's error.
 

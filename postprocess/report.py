@@ -150,6 +150,9 @@ def _grid_facts(case, layout, summary):
                  f"{layout.grid_points:,} grid points"),
         ("top monitor", f"y = {layout.y_top:.3f} µm, from x = -{layout.x_side:.3f} to {layout.x_side:.3f} µm"),
         ("stop rule", f"DFT fields change by less than {case.grid.decay:g} per period"),
+        *([("second grid", "{1:g} points/µm, every job run on it too; the numbers reported are the Richardson "
+            "extrapolation of the two grids (efficiency {2:.4f} on {0:g}, {3:.4f} on {1:g} points/µm alone)".format(
+                *summary["grids"]["resolution"], *summary["grids"]["efficiency"]))] if "grids" in summary else []),
         ("jobs", ", ".join(f"{j['orientation']} x = {j['x']:g}: {j.get('time_steps', '?')} steps"
                            + ("" if j.get("stopped_by_decay", True) else " (hit the time limit)") for j in jobs)),
         ("balance error", _f(summary["balance_error"]) if summary["balance_error"] is not None

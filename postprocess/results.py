@@ -12,7 +12,9 @@ Layout (all lengths µm; complex arrays are HDF5 compound types (r, i)):
 /grid/wavelengths       sampled vacuum wavelengths
 /grid/chip_polygon      (N, 2) vertices of the chip polygon
 /jobs/NNN               attrs: orientation, x, symmetric, time_steps, meep_time,
-                               wall_time, grid_points, stopped_by_decay
+                               wall_time, grid_points, stopped_by_decay (point sources: wavelength,
+                               kz, kz_weight, picture; a two-grid run's second grid: resolution,
+                               its points per µm, /grid describing the first)
 /jobs/NNN/source_current           Fourier transform of the source current, per wavelength
 /jobs/NNN/lines/NAME               attrs: start, end, normal; datasets: one per saved
                                    field component (n_wavelengths, n_samples), Yee grid

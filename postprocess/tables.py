@@ -30,6 +30,12 @@ def format_report(summary, title):
     if summary.get("source") == "point":
         out += [f"  3-D point dipole(s): each the integral of {summary['kz_nodes']} 2-D runs over the out-of-plane "
                 "wavenumber, per orientation, position and wavelength", ""]
+    grids = summary.get("grids")
+    if grids:
+        fine, coarse = grids["resolution"]
+        out += [f"  two grids ({fine:g} and {coarse:g} points/um, every job on each): the numbers below are their "
+                f"Richardson extrapolation; the finer grid alone gave {grids['efficiency'][0]:.4f}, the coarser "
+                f"{grids['efficiency'][1]:.4f}", ""]
     head = f"  {'wavelength/um':>13}  {'efficiency':>10}"
     if ref:
         head += f"  {'exact':>8}  {'diff':>8}"
@@ -131,6 +137,9 @@ def _farfield_lines(summary):
 
 def _grid_error(info):
     """One line on the grid's expected error (outcouple check, run, show)."""
+    if "resolutions" in info:
+        return (f"about {100 * info['estimate']:.1f}% or less ({info['basis']}; {info['points_per_wavelength']:.1f} "
+                "points per wavelength on the finer); 'outcouple converge' measures this case's own")
     return (f"about {100 * info['estimate']:.1f}% from the grid at {info['points_per_wavelength']:.1f} points per "
             f"wavelength ({info['basis']}); 'outcouple converge' measures this case's own")
 
@@ -151,7 +160,7 @@ def _human_bytes(n):
 def _kz_runs(facts):
     if facts.get("source") != "point":
         return ""
-    dipoles = len(facts["orientations"]) * facts["positions"]
+    dipoles = len(facts["orientations"]) * facts["positions"] * (2 if facts.get("second_grid") else 1)
     return (f" x {len(facts['wavelengths'])} wavelength(s), point dipoles: about "
             f"{facts['jobs'] / (dipoles * len(facts['wavelengths'])):.0f} kz runs each, the slowest several times "
             "the estimate")
@@ -174,8 +183,12 @@ def format_check(facts):
            f"  estimate per job   about {est['time_steps']:,} time steps, {duration(est['seconds'])} "
            f"(without symmetry), {_human_bytes(est['memory_bytes'])}",
            f"  estimate in all    about {duration(facts['seconds_in_all'])} on {facts['workers']} worker(s)"]
+    if facts.get("second_grid"):
+        out.append(f"  second grid        {facts['second_grid']:g} points/um (grid.extrapolate): every job runs on "
+                   "both grids (counted above) and the run reports their Richardson extrapolation")
     if facts.get("grid_error"):
-        out.append(f"  expected accuracy  {_grid_error(facts['grid_error'])}")
+        alone = "the finer grid alone: " if facts.get("second_grid") else ""
+        out.append(f"  expected accuracy  {alone}{_grid_error(facts['grid_error'])}")
     needed = facts.get("positions_needed")
     if needed:
         given = facts["positions"]

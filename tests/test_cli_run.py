@@ -32,7 +32,7 @@ def test_run_json_hdf5_and_show(tmp_path):
     assert summary["reference"]["efficiency"] == pytest.approx(expected, rel=1e-12)
     assert summary["efficiency"] == pytest.approx(expected, rel=0.03)
     assert summary["balance_error"] < 0.02
-    # The printed grid error (measured on other flat chips, fdtd_cases.layout.GRID_ERROR) covers this one's.
+    # The printed grid error (measured on other flat chips, fdtd_cases.accuracy.GRID_ERROR) covers this one's.
     assert summary["grid_error"]["estimate"] >= abs(summary["efficiency"] / expected - 1)
 
     with h5py.File(out) as f:

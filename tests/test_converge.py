@@ -8,7 +8,7 @@ import pytest
 from scipy.integrate import quad, simpson
 
 from conftest import SMALL_FLAT_CASE, case_toml, requires_meep, run_cli, small_flat_case
-from postprocess.convergence import extrapolate
+from postprocess.convergence import extrapolate, two_grids
 
 
 def _trapezoid(cells):
@@ -37,6 +37,24 @@ def test_two_levels_of_order_two_are_simpsons_rule():
     x = np.linspace(0.0, 1.0, 9)
     assert fit["limit"] == pytest.approx(simpson(np.exp(x), x=x), rel=1e-12)
     assert not fit["observed"] and fit["order"] == 2.0
+
+
+def test_a_runs_two_grids_are_simpsons_rule_too():
+    # The same Romberg step through two_grids (what a two-grid run applies to every number), at the
+    # grid ratio a run uses (4 : 3, 12 and 16 points per wavelength), on arrays: a trapezoid rule on
+    # 12 and 16 cells of any quadratic's integral is exact after it (Euler-Maclaurin: the error is
+    # exactly c h^2 for a quadratic), checked against numpy's polynomial integral.
+    poly = np.polynomial.Polynomial([0.3, -1.2, 2.5])
+    exact = poly.integ()(1.0) - poly.integ()(0.0)
+
+    def trap(cells):
+        x = np.linspace(0.0, 1.0, cells + 1)
+        return np.trapz(poly(x), x)
+
+    assert two_grids(trap(16), trap(12), 16, 12) == pytest.approx(exact, rel=1e-12)
+    assert abs(trap(16) - exact) > 1e-3
+    both = two_grids([trap(16), 2 * trap(16)], [trap(12), 2 * trap(12)], 16.0, 12.0)
+    assert both == pytest.approx([exact, 2 * exact], rel=1e-12)
 
 
 def test_oscillating_levels_are_flagged():

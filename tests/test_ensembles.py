@@ -11,7 +11,7 @@ import pytest
 from conftest import make_case, requires_meep
 from fdtd_cases.case_file import parse_case
 from fdtd_cases.errors import CaseError
-from fdtd_cases.layout import positions_needed
+from fdtd_cases.accuracy import positions_needed
 from postprocess.budget import summarise
 
 GRATING = {"pattern": "grating", "period": 1.0, "height": 0.25}

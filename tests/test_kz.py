@@ -64,8 +64,16 @@ def test_point_jobs_cover_every_orientation_position_wavelength_and_node():
                                 emitter={"depth": 0.3, "x": [0.0, 0.2], "source": "point"}))
     layout = make_layout(case)
     jobs = plan_jobs(case, layout)
+    # Point sources run on two grids by default (grid.extrapolate): the second at 0.75 of the resolution.
+    assert layout.second is not None and layout.second.resolution == round(0.75 * layout.resolution)
+    second = [job for job in jobs if "resolution" in job]
+    assert {job["resolution"] for job in second} == {layout.second.resolution}
+    assert not any(job["picture"] for job in second)
+    own = [job for job in jobs if "resolution" not in job]
+    assert [{k: v for k, v in job.items() if k not in ("resolution", "picture")} for job in second] == \
+        [{k: v for k, v in job.items() if k != "picture"} for job in own]  # a flat chip: the same nodes
     per = {}
-    for job in jobs:
+    for job in own:
         per.setdefault((job["orientation"], job["x"], job["wavelength"]), []).append(job)
     assert len(per) == 3 * 2 * 2
     for (_, _, wavelength), nodes in per.items():

@@ -70,15 +70,17 @@ def test_bad_sweeps_are_refused_before_anything_runs(tmp_path, table, key, words
     assert_refused(result, key, words, folder=tmp_path, pattern="sw")
 
 
+# 11 points per wavelength: the coarsest grid whose second grid (0.75 of it, 8.75) is valid, so that the
+# sweep runs two grids, as point sources do by default.
 POINT = {"chip": {"index": 1.6}, "emitter": {"depth": 0.4, "orientation": "out-of-plane", "source": "point"},
-         "grid": {"points_per_wavelength": 10, "width": 3.0, "pml": 1.0}}
+         "grid": {"points_per_wavelength": 11, "width": 3.0, "pml": 1.0}}
 
 
 @requires_meep
 @pytest.mark.fdtd
 def test_point_source_sweep_equals_single_runs(tmp_path):
-    """A point source's sweep runs every kz node as a job of its own (ids differ by wavelength and kz),
-    and each collected point, cone included, equals `outcouple run` of the same case: the same nodes,
+    """A point source's sweep runs every kz node of both grids as a job of its own (ids differ by
+    wavelength, kz and grid), and each collected point, cone included, equals `outcouple run` of the same case: the same nodes,
     the same integration (to the CSV's six decimals). The flat baseline is the point dipole's (the
     exact 3-D solver)."""
     from outcouple.summary import flat_baseline
@@ -92,6 +94,7 @@ def test_point_source_sweep_equals_single_runs(tmp_path):
     plan = json.loads((out / "plan.json").read_text())
     ids = [job["id"] for point in plan["points"] for job in point["jobs"]]
     assert len(ids) == len(set(ids)) > 2 * 8 and all("kz" in job for job in plan["points"][0]["jobs"])
+    assert len({job.get("resolution") for job in plan["points"][0]["jobs"]}) == 2  # the second grid's carry theirs
     assert run_cli("collect", out).returncode == 0
     with open(out / "sweep.csv") as f:
         rows = list(csv.DictReader(f))
@@ -104,6 +107,7 @@ def test_point_source_sweep_equals_single_runs(tmp_path):
         ran = run_cli("run", single, "-o", tmp_path / "single.h5", "--json", "--quiet")
         assert ran.returncode == 0, ran.stderr
         summary = json.loads(ran.stdout)
+        assert "grids" in summary
         assert float(row["efficiency"]) == pytest.approx(summary["efficiency"], abs=1e-6)
         assert float(row["collected"]) == pytest.approx(summary["collected"], abs=1e-6)
         assert float(row["flat_baseline"]) == pytest.approx(flat_baseline(parse_case(data), dim=3), abs=1e-6)
