@@ -16,6 +16,7 @@ blocks) then fills the whole cell: it is turned off, and the run checks the
 ambient and the chip's epsilon before it starts.
 """
 
+import atexit
 import math
 import time
 
@@ -23,6 +24,10 @@ import meep as mp
 import numpy as np
 
 from .attenuation import d_conductivity
+
+# Meep prints its elapsed time on standard output when the process exits; a job run in the calling
+# process (one job, fdtd_cases.runner.run_many) would append it to `run --json`'s output.
+atexit.unregister(mp.report_elapsed_time)
 
 COMPONENTS = {
     # orientation: (source component, saved components)

@@ -1,11 +1,13 @@
 """Run the jobs of a case in worker processes, with a progress display.
 
 One Meep simulation per (orientation, position) job; jobs run in separate
-processes because serial Meep uses one core. Meep is imported only inside
-the workers, whose standard output (where Meep prints) is sent to
-/dev/null so that ``--json`` output stays clean.
+processes because serial Meep uses one core. Meep is imported only where a
+job runs: inside the workers, whose standard output (where Meep prints) is
+sent to /dev/null so that ``--json`` output stays clean, or, for a run of one
+job, in this process with its standard output sent there for the job's time.
 """
 
+import contextlib
 import multiprocessing
 import os
 import sys
@@ -95,6 +97,29 @@ def _quiet_worker(parent):
     warnings.filterwarnings("ignore", message="The value of the smallest subnormal")
 
 
+@contextlib.contextmanager
+def _stdout_to_devnull():
+    """Send this process's standard output (file descriptor 1, where Meep prints) to /dev/null for a while.
+
+    What Python itself prints meanwhile goes there too; standard error (progress, warnings) stays.
+    """
+    import warnings
+
+    sys.stdout.flush()
+    saved, devnull = os.dup(1), os.open(os.devnull, os.O_WRONLY)
+    os.dup2(devnull, 1)
+    try:
+        with warnings.catch_warnings():
+            # Debian's numpy 1.24 warns about subnormals when Meep's module loads; not ours to fix.
+            warnings.filterwarnings("ignore", message="The value of the smallest subnormal")
+            yield
+    finally:
+        sys.stdout.flush()
+        os.dup2(saved, 1)
+        os.close(saved)
+        os.close(devnull)
+
+
 def run_planned(case, layout, job, field_map=False):
     """Run one planned job (:func:`plan_jobs`) in this process: a line job, or one kz node of a point source."""
     from .meep_job import run_job
@@ -148,6 +173,21 @@ def run_many(items, workers=None, progress=True, on_result=None, on_error=None):
     results = [None] * len(items)
     bar = tqdm(total=len(items), desc="FDTD jobs", unit="job", file=sys.stderr, disable=not progress,
                bar_format="{desc}: {n_fmt}/{total_fmt} |{bar}| {elapsed} elapsed, {remaining} left")
+    if len(items) == 1:
+        # One job: no worker process to start (a second Python and Meep import, about a second).
+        try:
+            with _stdout_to_devnull():
+                results[0] = run_planned(*items[0])
+        except Exception as error:
+            if on_error is None:
+                raise
+            on_error(0, error)
+        else:
+            if on_result is not None:
+                on_result(0, results[0])
+        bar.update()
+        bar.close()
+        return results
     context = multiprocessing.get_context("spawn")
     with ProcessPoolExecutor(max_workers=workers, mp_context=context, initializer=_quiet_worker,
                              initargs=(os.getpid(),)) as pool:

@@ -70,3 +70,38 @@ def test_workers_leave_when_the_run_is_killed(tmp_path, how):
     finally:
         if run.poll() is None:
             run.kill()
+
+
+def test_one_job_runs_without_a_worker_process(tmp_path, monkeypatch):
+    """A run of one job starts no pool (a second Python and Meep import saved), keeps standard output
+    clean while Meep runs in this process, and gives the numbers a worker gives (the same job run
+    through a pool of one, here forced by a second, identical item)."""
+    from fdtd_cases.case_file import parse_case
+    from fdtd_cases.layout import make_layout
+    from fdtd_cases.runner import plan_jobs, run_many
+
+    case = parse_case(make_case(emitter={"orientation": "out-of-plane"}, grid={"points_per_wavelength": 12}))
+    layout = make_layout(case)
+    (job,) = plan_jobs(case, layout)
+    pooled = run_many([(case, layout, job), (case, layout, job)], workers=1, progress=False)[0]
+
+    class NoPool:
+        def __init__(self, *args, **kwargs):
+            raise AssertionError("a worker pool was started for one job")
+
+    monkeypatch.setattr("fdtd_cases.runner.ProcessPoolExecutor", NoPool)
+    captured = tmp_path / "stdout.txt"
+    saved = os.dup(1)
+    with open(captured, "wb") as sink:
+        os.dup2(sink.fileno(), 1)
+        try:
+            (alone,) = run_many([(case, layout, job)], workers=1, progress=False)
+            os.write(1, b"after\n")
+        finally:
+            os.dup2(saved, 1)
+            os.close(saved)
+    printed = captured.read_text()
+    assert printed == "after\n", f"Meep's output reached standard output: {printed[:200]!r}"
+    for name, line in alone["lines"].items():
+        for component, values in line["fields"].items():
+            assert values == pytest.approx(pooled["lines"][name]["fields"][component], rel=1e-12, abs=1e-12), name
