@@ -136,6 +136,25 @@ def snap_down(value, resolution):
     return math.floor(value * resolution + 1e-9) / resolution
 
 
+def whole_cells(count, resolution):
+    """(cells, length): ``count`` grid cells, or two or four more, whose length times ``resolution`` is exact.
+
+    Meep 1.25 warns ("grid volume is not an integer number of pixels") on standard error, once per
+    run, whenever a cell size times the resolution is not an exact integer in floating point, which
+    count / resolution often is not (4.539325842696629 * 89 = 403.99999999999994); one of its
+    neighbouring floats usually is, and where none is (404 cells at 89 per µm) 406 cells may be. The
+    extra cells widen the domain by one cell per side (the absorbing layers keep their thickness).
+    """
+    for cells in range(count, count + 64, 2):
+        below = above = cells / resolution
+        for _ in range(8):
+            for length in (below, above):
+                if length * resolution == cells:
+                    return cells, float(length)
+            below, above = np.nextafter(below, 0.0), np.nextafter(above, np.inf)
+    return count, count / resolution
+
+
 def _resolution(case, wavelengths, source, warnings):
     grid = case.grid
     n_max = max(material_indices(case).values())
@@ -302,7 +321,7 @@ def make_layout(case, source="case", fdtd=True):
                  + 2 * max(abs(x) for x in xs))
     half = snap_up(width / 2, resolution)
     width = 2 * half
-    cell_x = round((width + 2 * pml) * resolution) / resolution
+    _, cell_x = whole_cells(round((width + 2 * pml) * resolution), resolution)
 
     polyline = geometry.surface_polyline(case.surface, -cell_x / 2 - cell, cell_x / 2 + cell)
     pattern_bottom = geometry.deepest_point(polyline)
@@ -371,7 +390,9 @@ def make_layout(case, source="case", fdtd=True):
     # An odd number of cells in y would put the cell centre between grid lines.
     if round((y_cell_top - y_cell_bottom) * resolution) % 2:
         y_cell_bottom -= cell
-    cell_y = round((y_cell_top - y_cell_bottom) * resolution) / resolution
+    cells_y = round((y_cell_top - y_cell_bottom) * resolution)
+    more, cell_y = whole_cells(cells_y, resolution)
+    y_cell_bottom -= (more - cells_y) / resolution  # any extra cells go below, under the monitors
     y_center = snap((y_cell_top + y_cell_bottom) / 2, resolution)
     # Mirror symmetry only where every interface is parallel to an axis: with Meep 1.25 an x
     # current on the mirror plane below a triangle apex blew up (NaN) with symmetry on, and ran

@@ -201,3 +201,19 @@ def test_check_validates_the_sweep_table(tmp_path):
     result = run_cli("check", case)
     assert result.returncode == 0, result.stderr
     assert "6 point(s)" in result.stdout and "surface.period, emitter.depth" in result.stdout
+
+
+def test_cell_sizes_are_whole_cells_to_the_last_bit():
+    """Meep 1.25 warns on standard error for every run whose cell size times resolution is not an exact
+    integer (measured: 4.539325842696629 x 89 = 403.99999999999994 warns, 4 x 89 does not); the layout
+    picks cell sizes whose product is exact, adding two cells where no float of that length exists."""
+    from fdtd_cases.layout import whole_cells
+
+    assert whole_cells(356, 89) == (356, 4.0)
+    cells, length = whole_cells(404, 89)  # no float x has x * 89 == 404 exactly
+    assert cells == 406 and length * 89 == 406.0
+    for chip in (2.0, 2.4869, 3.3):
+        for wavelength in (0.45, 0.85, 1.0):
+            layout = make_layout(parse_case(make_case(light={"wavelength": wavelength}, chip={"index": chip})))
+            for size in (layout.cell_x, layout.cell_y):
+                assert size * layout.resolution == round(size * layout.resolution), (chip, wavelength, size)
