@@ -27,7 +27,6 @@ indices (test_kz.py).
 """
 
 import numpy as np
-from scipy.linalg import eigh_tridiagonal
 
 from .layout import COURANT
 
@@ -60,6 +59,8 @@ def _averaged(rows, dx, pieces):
 
 def grid_indices(case, layout, wavelength):
     """Effective indices (kz / k0) of the guided modes the grid carries at ``wavelength``, sorted, s and p together."""
+    from scipy.linalg import eigh_tridiagonal  # here: scipy.linalg takes 0.1 s to load, and few cases need it
+
     if case.chip.back in ("mirror", "metal"):
         raise ValueError("grid_indices: metal and mirror backs are not modelled here (point sources refuse them)")
     layers, lower, upper = stack_layers(case, layout)

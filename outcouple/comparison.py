@@ -23,7 +23,6 @@ from fdtd_cases.errors import CaseError, did_you_mean
 from fdtd_cases.layout import make_layout
 from fdtd_cases.runner import run_cases
 from postprocess.files import atomic_write
-from postprocess.plots import plot_comparison
 from references.raytrace3d import trace_case
 
 from .jobs import jobs_of
@@ -123,6 +122,8 @@ def write_outputs(rows, key, out_dir, title):
             for r in rows:
                 writer.writerow([f"{r[key]:.6g}", f"{r[key] / scale:.6g}", f"{r['fdtd']:.6f}", f"{r['rays']:.6f}",
                                  f"{r['rays_error']:.6f}", f"{r['difference']:+.5f}", int(r["differs"])])
+        from postprocess.plots import plot_comparison  # matplotlib: loaded only when a plot is drawn
+
         plot_comparison(key, [r[key] for r in rows], scale, [r["fdtd"] for r in rows], [r["rays"] for r in rows],
                         [r["rays_error"] for r in rows], [r["differs"] for r in rows], picture, title)
     return csv_path, png_path

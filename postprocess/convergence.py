@@ -16,7 +16,6 @@ smaller than the difference between the two finest.
 """
 
 import numpy as np
-from scipy.optimize import brentq
 
 FORMAL_ORDER = 2.0
 ORDER_RANGE = (0.5, 6.0)
@@ -46,6 +45,8 @@ def observed_order(h, e):
     lo, hi = ORDER_RANGE
     if mismatch(lo) * mismatch(hi) > 0:
         return None
+    from scipy.optimize import brentq  # here: scipy.optimize takes 0.2 s to load, and only converge needs it
+
     return float(brentq(mismatch, lo, hi, rtol=1e-10))
 
 

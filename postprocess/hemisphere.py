@@ -56,7 +56,6 @@ powers scaled the same way.
 """
 
 import numpy as np
-from scipy.interpolate import BarycentricInterpolator, RegularGridInterpolator
 
 from .farfield import ANGLES, line_transform
 
@@ -120,11 +119,15 @@ def interpolate(theta_z, rows, targets=FINE):
     zero = np.zeros((1, rows.shape[1]))
     nodes = np.concatenate(([-90.0], -theta_z[order][::-1], theta_z[order], [90.0]))
     values = np.concatenate((zero, rows[order][::-1], rows[order], zero))
+    from scipy.interpolate import BarycentricInterpolator  # here: scipy.interpolate takes 0.15 s to load
+
     return BarycentricInterpolator(np.radians(nodes), values, axis=0)(np.radians(targets))
 
 
 def polar_pattern(grid):
     """Power per degree of polar angle (summed over azimuth) at POLAR, from I on FINE x FINE."""
+    from scipy.interpolate import RegularGridInterpolator  # here: see interpolate
+
     lookup = RegularGridInterpolator((FINE, FINE), grid)
     theta = np.radians(POLAR)[:, None]
     phi = _AZIMUTHS[None, :]
