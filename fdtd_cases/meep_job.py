@@ -275,7 +275,8 @@ def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, 
         lines (off by default: they cost time and the answer does not use them);
         ``source_current``: complex
         Fourier transform of the source current per wavelength (Meep's
-        ``ldos_Jdata``); ``time_steps``, ``meep_time``, ``wall_time`` (s),
+        ``ldos_Jdata``); ``time_steps``, ``meep_time``, ``wall_time``, ``setup_time`` (building the
+        simulation and Meep's set-up: epsilon averaging, chunks), ``step_time`` (the time steps) (s),
         ``grid_points``, ``stopped_by_decay`` (False when the safety limit
         ended the run). With ``field_map``: ``field_map`` = {component,
         wavelength, extent (x0, x1, y0, y1), magnitude (ny, nx)}, the magnitude
@@ -289,8 +290,8 @@ def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, 
     freqs, saved = list(1.0 / layout.wavelengths), COMPONENTS[orientation][1]
     if kz is not None:
         freqs = [frequency]
+    sim.init_sim()  # here rather than in sim.run, so that the set-up is timed on its own
     if kz:  # at kz = 0 the run is the line source's, with one polarisation
-        sim.init_sim()
         _check_epsilon(sim, case, layout, x0)
         saved = ALL_COMPONENTS
     lines = monitor_lines(layout, x0)
@@ -310,8 +311,10 @@ def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, 
                                                 size=size))
     crossing = case.chip.index * (layout.cell_x + layout.cell_y)
     limit = 10.0 / source_pulse(layout, frequency)[1] + MAX_RUN_CROSSINGS * crossing
+    set_up = time.perf_counter() - started
     sim.run(mp.dft_ldos(freqs), until_after_sources=mp.stop_when_dft_decayed(
         tol=case.grid.decay, minimum_run_time=crossing, maximum_run_time=limit))
+    stepping = time.perf_counter() - started - set_up
     out_lines = {}
     for name, (start, end, normal) in lines.items():
         fields = {c: np.array([sim.get_dft_array(dft[name], _MEEP_COMPONENT[c], i) for i in range(len(freqs))])
@@ -325,6 +328,7 @@ def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, 
         "grid_points": int(layout.grid_points),
         "stopped_by_decay": bool(sim.meep_time() < limit),
         "meep_version": mp.__version__,
+        "setup_time": set_up, "step_time": stepping,
     }
     if cross_check:
         result["meep_flux"] = {name: np.array(mp.get_fluxes(obj)) for name, obj in flux.items()}

@@ -108,7 +108,7 @@ def _analyse_grid(case, jobs, wavelengths, resolution):
                  "bulk": bulk_power(job["orientation"], wavelengths, job["source_current"])} for job in jobs]
     summary = summarise(combined, wavelengths, lossless=case.chip.alpha == 0)
     for entry, job in zip(summary["jobs"], jobs):
-        for key in ("time_steps", "wall_time", "stopped_by_decay"):
+        for key in ("time_steps", "wall_time", "setup_time", "step_time", "stopped_by_decay"):
             if key in job:
                 entry[key] = job[key]
     summary.update(far_field(case, jobs, combined, wavelengths, resolution))

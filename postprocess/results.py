@@ -12,7 +12,7 @@ Layout (all lengths µm; complex arrays are HDF5 compound types (r, i)):
 /grid/wavelengths       sampled vacuum wavelengths
 /grid/chip_polygon      (N, 2) vertices of the chip polygon
 /jobs/NNN               attrs: orientation, x, symmetric, time_steps, meep_time,
-                               wall_time, grid_points, stopped_by_decay (point sources: wavelength,
+                               wall_time, setup_time, step_time, grid_points, stopped_by_decay (point sources: wavelength,
                                kz, kz_weight, picture; a two-grid run's second grid: resolution,
                                its points per µm, /grid describing the first)
 /jobs/NNN/source_current           Fourier transform of the source current, per wavelength
@@ -70,6 +70,9 @@ def write_results(path, *, case_file, case_text, resolved_toml, layout, jobs, ra
             g.attrs.update(job)
             for key in ("time_steps", "meep_time", "wall_time", "grid_points", "stopped_by_decay", "meep_version"):
                 g.attrs[key] = result[key]
+            for key in ("setup_time", "step_time"):  # absent from jobs run before 2026-12-03
+                if key in result:
+                    g.attrs[key] = result[key]
             g["source_current"] = result["source_current"]
             for name, line in result["lines"].items():
                 lg = g.create_group(f"lines/{name}")
