@@ -279,8 +279,8 @@ def _second_grid(case, layout, source):
     except CaseError as error:
         if case.grid.extrapolate:
             raise CaseError(source, "grid.extrapolate", f"needs a second grid at {coarse:g} points/µm "
-                            f"({SECOND_GRID:g} of the resolution), where {error.key} {error.message}; "
-                            "refine the grid or set grid.extrapolate = false") from None
+                            f"({SECOND_GRID:g} of the resolution), where {error.key} {error.message}; or "
+                            "set grid.extrapolate = false") from None
         return None, ("grid.extrapolate", f"off (one grid): the second grid at {coarse:g} points/µm would not "
                       f"be valid ({error.key} {error.message}); expect the single grid's error")
     return second, None
