@@ -11,7 +11,7 @@ import pytest
 import outcouple
 from conftest import SMALL_FLAT_CASE, requires_meep, run_cli
 
-TIMING = ("wall_time", "meep_time", "elapsed", "events_per_second")
+TIMING = ("wall_time", "meep_time", "setup_time", "step_time", "elapsed", "events_per_second")
 
 
 def _without(data, keys):
