@@ -25,7 +25,6 @@ POINT_GRID_FACTOR = 2.0
 0.0023 n^2 = 0.92% and 1.44% for line sources."""
 
 
-
 def grid_error_estimate(case, resolution):
     """The expected relative error of the efficiency on this grid, and what it rests on.
 

@@ -66,6 +66,9 @@ def layout_of_job(layout, job):
     return layout.second
 
 
+SUBNORMAL = "The value of the smallest subnormal"
+"""Debian's numpy 1.24 warns so when Meep's module loads; not ours to fix."""
+
 ORPHAN_CHECK_SECONDS = 1.0
 """How often a worker looks whether the process that started it is still there."""
 
@@ -93,8 +96,7 @@ def _quiet_worker(parent):
     devnull = os.open(os.devnull, os.O_WRONLY)
     os.dup2(devnull, 1)
     import warnings
-    # Debian's numpy 1.24 warns about subnormals when Meep's module loads; not ours to fix.
-    warnings.filterwarnings("ignore", message="The value of the smallest subnormal")
+    warnings.filterwarnings("ignore", message=SUBNORMAL)
 
 
 @contextlib.contextmanager
@@ -110,8 +112,7 @@ def _stdout_to_devnull():
     os.dup2(devnull, 1)
     try:
         with warnings.catch_warnings():
-            # Debian's numpy 1.24 warns about subnormals when Meep's module loads; not ours to fix.
-            warnings.filterwarnings("ignore", message="The value of the smallest subnormal")
+            warnings.filterwarnings("ignore", message=SUBNORMAL)
             yield
     finally:
         sys.stdout.flush()

@@ -9,7 +9,7 @@ them) is assembled in one place, :func:`outcouple.summary.summarise`.
 import numpy as np
 
 from . import farfield, hemisphere
-from .budget import bulk_power, job_fluxes, point_sources, summarise
+from .budget import bulk_power, job_fluxes, point_sources, position_stats, summarise
 from .convergence import FORMAL_ORDER, two_grids
 
 AXES = ("angle", "theta_z", "alpha")
@@ -65,9 +65,8 @@ def extrapolated(fine, coarse, r_fine, r_coarse):
     if fine.get("balance_error") is not None:
         out["balance_error"] = max(fine["balance_error"], coarse["balance_error"])
     if "positions" in fine:
-        values = rich(fine["positions"]["efficiency"], coarse["positions"]["efficiency"])
-        out["positions"] = {"x": fine["positions"]["x"], "efficiency": values, "mean": float(np.mean(values)),
-                            "spread": float(np.std(values)), "min": min(values), "max": max(values)}
+        out["positions"] = position_stats(fine["positions"]["x"], rich(fine["positions"]["efficiency"],
+                                                                       coarse["positions"]["efficiency"]))
     twins = {(j["orientation"], j["x"]): j for j in coarse["jobs"]}
     out["jobs"] = []
     for job in fine["jobs"]:

@@ -124,8 +124,12 @@ def _positions(jobs, scaled):
     per_x = _by(jobs, scaled, "x")
     if len(per_x) < 2:
         return None
-    values = list(per_x.values())
-    return {"x": [float(x) for x in per_x], "efficiency": values, "mean": float(np.mean(values)),
+    return position_stats(list(per_x), list(per_x.values()))
+
+
+def position_stats(xs, values):
+    """``positions`` of a summary from each position's efficiency (see :func:`_positions`)."""
+    return {"x": [float(x) for x in xs], "efficiency": list(values), "mean": float(np.mean(values)),
             "spread": float(np.std(values)), "min": min(values), "max": max(values)}
 
 

@@ -24,7 +24,7 @@ ORDER_RANGE = (0.5, 6.0)
 def _limit(h, e, p):
     """Extrapolated value from the two finest of (h, e), order p."""
     (h1, h2), (e1, e2) = h[-2:], e[-2:]
-    return e2 + (e2 - e1) / ((h1 / h2) ** p - 1)
+    return two_grids(e2, e1, 1 / h2, 1 / h1, p)
 
 
 def observed_order(h, e):
