@@ -121,8 +121,21 @@ def _stdout_to_devnull():
         os.close(devnull)
 
 
+def _label(job):
+    """A job in a few words for the progress line."""
+    if "incidence" in job:
+        one = job["incidence"]
+        return f"{one['kind']} {one['pol']} u={one['u']:.3f}"
+    return f"{job['orientation']} x={job['x']:g}"
+
+
 def run_planned(case, layout, job, field_map=False):
-    """Run one planned job (:func:`plan_jobs`) in this process: a line job, or one kz node of a point source."""
+    """Run one planned job (:func:`plan_jobs`) in this process: a line job, one kz node of a point source,
+    or (a job with ``incidence``: keyword arguments of :func:`fdtd_cases.meep_periodic.run_incidence`)
+    one plane wave on a period of the top."""
+    if "incidence" in job:  # a plane wave on one period of the top (the multi-pass model's texture response)
+        from .meep_periodic import run_incidence
+        return run_incidence(case, **job["incidence"])
     from .meep_job import run_job
     layout = layout_of_job(layout, job)
     field_map = field_map and job.get("picture", True)
@@ -202,11 +215,11 @@ def run_many(items, workers=None, progress=True, on_result=None, on_error=None):
                 if on_error is None:
                     raise
                 on_error(i, error)
-                bar.set_postfix_str(f"{job['orientation']} x={job['x']:g}: FAILED")
+                bar.set_postfix_str(f"{_label(job)}: FAILED")
             else:
                 if on_result is not None:
                     on_result(i, results[i])
-                bar.set_postfix_str(f"{job['orientation']} x={job['x']:g}: {results[i]['wall_time']:.1f} s")
+                bar.set_postfix_str(f"{_label(job)}: {results[i]['wall_time']:.1f} s")
             bar.update()
     bar.close()
     return results

@@ -19,7 +19,7 @@ the runner).
 from fdtd_cases.errors import CaseError
 from postprocess.results import ResultFileError
 
-from .api import Result, check, load_case, plot, rays, reference, report, run, show
+from .api import Result, check, load_case, multipass, plot, rays, reference, report, run, show
 from .comparison import compare
 from .grid_convergence import converge
 from .sweeps import collect
@@ -28,4 +28,4 @@ from .sweeps import start as sweep
 from .version import __version__
 
 __all__ = ["CaseError", "Result", "ResultFileError", "__version__", "check", "collect", "compare", "converge",
-           "load_case", "plot", "rays", "reference", "report", "run", "show", "status", "sweep"]
+           "load_case", "multipass", "plot", "rays", "reference", "report", "run", "show", "status", "sweep"]

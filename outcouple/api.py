@@ -245,6 +245,18 @@ def rays(case, rays=20000, seed=0, lateral="absorbing", na=None):
     return result
 
 
+def multipass(case, angles=90, response=None, workers=None, progress=True, vary=(), plot=None):
+    """A thick chip: the top's full-wave response inside a multi-pass model (``outcouple multipass``).
+
+    See :func:`outcouple.thick_chip.run`; the top's response is cached (``$OUTCOUPLE_CACHE``).
+    """
+    from . import thick_chip
+
+    case = load_case(case)
+    return thick_chip.run(case, _source(case), angles=angles, response=response, workers=workers, progress=progress,
+                          vary=vary, plot=plot)
+
+
 def report(source, output=None, na=None):
     """One self-contained HTML report of a result file or a finished sweep folder; returns its path."""
     from postprocess import report as html_report

@@ -5,6 +5,7 @@
     outcouple show FILE.h5 [--json] [--na NA]
     outcouple reference CASE [--json] [--na NA]
     outcouple rays CASE [--rays N] [--lateral absorbing|periodic] [--seed S] [--json] [--na NA]
+    outcouple multipass CASE [--angles N] [--response fdtd|exact] [--vary KEY=START:STOP:COUNT[:log]] [--plot FILE.png] [--json]
     outcouple compare CASE --vary KEY=START:STOP:COUNT [--tolerance T] [--rays N] [-o DIR] [--json]
     outcouple sweep CASE --out DIR [--engine local] [--workers N] [--quiet]
     outcouple status DIR | collect DIR | plot DIR [-o FILE.png]
@@ -83,6 +84,16 @@ def cmd_rays(args):
         print(f"tracing {args.rays} rays per job of {args.case}", file=sys.stderr)
     result = outcouple.rays(args.case, rays=args.rays, seed=args.seed, lateral=args.lateral, na=args.na)
     print(json.dumps(result, indent=2) if args.json else tables.format_rays(result))
+    return 0
+
+
+def cmd_multipass(args):
+    result = outcouple.multipass(args.case, angles=args.angles, response=args.response, workers=args.workers,
+                                 progress=not args.quiet, vary=args.vary or (), plot=args.plot)
+    if args.json:
+        _json(result)
+    else:
+        print(tables.format_multipass(result))
     return 0
 
 
@@ -244,6 +255,19 @@ def build_parser():
     _add_na(p)
     p.add_argument("--quiet", action="store_true", help="no progress message")
     p.set_defaults(func=cmd_rays)
+    p = sub.add_parser("multipass", help="a thick chip: the top's full-wave response inside a multi-pass model")
+    p.add_argument("case", help="TOML case file")
+    p.add_argument("--angles", type=_positive_int, default=90, help="angle bins across -90..90 degrees, equal in "
+                   "sin(angle) (default 90)")
+    p.add_argument("--response", choices=("fdtd", "exact"), help="the top's response: Meep (default for patterned "
+                   "tops) or exact Fresnel (default for flat tops)")
+    p.add_argument("--vary", action="append", metavar="KEY=START:STOP:COUNT[:log]",
+                   help="chip.thickness or chip.alpha over a range, the same top (repeatable: a grid)")
+    p.add_argument("--plot", metavar="FILE.png", help="write efficiency against thickness, 1 to 1000 µm")
+    p.add_argument("--workers", type=_positive_int, help="Meep worker processes (default: number of cores)")
+    p.add_argument("--json", action="store_true", help="print the result as JSON")
+    p.add_argument("--quiet", action="store_true", help="no progress display")
+    p.set_defaults(func=cmd_multipass)
     p = sub.add_parser("compare", help="FDTD against ray optics over a range of one case parameter")
     p.add_argument("case", help="TOML case file")
     p.add_argument("--vary", required=True, help="KEY=START:STOP:COUNT, KEY a dotted case key such as surface.period")

@@ -331,3 +331,30 @@ def plot_budget(rows, path, title=""):
     fig.tight_layout()
     fig.savefig(path, format="png")
     plt.close(fig)
+
+
+THINNING_STYLE = {"flat": ("flat top (exact)", REFERENCE_COLOUR, "-"),
+                  "texture": ("texture, full-wave response", MONITOR_COLOUR, "-"),
+                  "randomising": ("ideal randomising top", LAMBERT_COLOUR, ":")}
+
+
+def plot_thinning(curves, path, title=""):
+    """Extraction efficiency against chip thickness (log axis): flat top, texture (multi-pass with the
+    full-wave response), the same texture in ray optics, and the randomising bound."""
+    fig, ax = plt.subplots(figsize=(7, 4.2), dpi=120)
+    for key, (label, colour, style) in THINNING_STYLE.items():
+        ax.plot(curves["thickness"], curves[key], style, color=colour, lw=1.8, label=label)
+    if curves.get("rays"):
+        ax.errorbar(curves["rays_thickness"], curves["rays"], yerr=curves["rays_error"], fmt="o", ms=5,
+                    color=FLUX_LINE_COLOUR, mfc="white", capsize=2, label="texture, ray optics")
+    ax.set_xscale("log")
+    ax.set_xlabel("chip thickness (µm)")
+    ax.set_ylabel("extraction efficiency")
+    ax.set_ylim(bottom=0)
+    ax.grid(True, which="both", alpha=0.25)
+    ax.legend(fontsize=8, loc="best")
+    if title:
+        ax.set_title(title, fontsize=9)
+    fig.tight_layout()
+    fig.savefig(path)
+    plt.close(fig)

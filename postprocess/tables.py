@@ -272,6 +272,41 @@ def format_rays(result):
     return "\n".join(out)
 
 
+def format_multipass(result):
+    """``outcouple multipass``: the thick chip's efficiency, budget, passes and the top's response."""
+    t = result["top_response"]
+    if t["source"] == "exact":
+        how = "exact Fresnel coefficients of the flat top"
+    else:
+        how = (f"Meep, {t['runs']} periodic-cell runs at {t['resolution']:g} points/µm, period {t['period']:g} µm"
+               + (f" (from the cache {t['cache_file']})" if t["cached"] else f", {duration(t['wall_time'])}"))
+    out = [f"{result['case']}: multi-pass model of the thick chip, {result['angles']} angle bins; top response: {how}",
+           f"\n  extraction efficiency   {result['efficiency']:.4f}"]
+    for name, value in result["by_orientation"].items():
+        out.append(f"  {name:>22}  {value:.4f}")
+    out.append(f"  same chip, flat top      {result['flat']:.4f}")
+    out.append(f"  ideal randomising top    {result['randomising']:.4f}")
+    b = result["budget"]
+    out.append("\n  budget (fractions of the emitted power):")
+    out.append("    " + "   ".join(f"{k} {b[k]:.4f}" for k in ("top", "back", "absorbed_chip", "absorbed_metal",
+                                                                "absorbed_top", "trapped")))
+    out.append(f"  passes carrying 99% of the escaped light: {result['passes_99']}")
+    far = np.asarray(result["farfield"]["intensity"])
+    if far.sum() > 0:
+        angle = np.asarray(result["farfield"]["angle"])
+        out.append(f"  far field: peak at {angle[int(np.argmax(far))]:+.1f} deg; "
+                   f"{100 * far[np.abs(angle) < 30].sum() / far.sum():.0f}% of the escaped light within 30 deg")
+    if result.get("sweep"):
+        out.append("\n  the same top over the chip's thickness (µm) and absorption (1/cm):")
+    for row in result.get("sweep", []):
+        keys = "  ".join(f"{k} {row[k]:<10.4g}" for k in row if k.startswith("chip."))
+        out.append(f"    {keys}  efficiency {row['efficiency']:.4f}  passes {row['passes_99']}")
+    if "plot" in result:
+        out.append(f"\n  written: {result['plot']}")
+    out.append("\n  2-D, incoherent between passes, emitter far from the top (its near field does not reach it)")
+    return "\n".join(out)
+
+
 def format_compare(result):
     """``outcouple compare``: FDTD against rays, one row per value of the varied key."""
     key = result["key"]
