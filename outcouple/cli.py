@@ -83,6 +83,7 @@ def cmd_rays(args):
     if not args.quiet:
         print(f"tracing {args.rays} rays per job of {args.case}", file=sys.stderr)
     result = outcouple.rays(args.case, rays=args.rays, seed=args.seed, lateral=args.lateral, na=args.na)
+    _warn(args.case, result["warnings"])
     print(json.dumps(result, indent=2) if args.json else tables.format_rays(result))
     return 0
 
@@ -248,8 +249,9 @@ def build_parser():
     p = sub.add_parser("rays", help="ray-optics extraction on the same geometry (Monte Carlo, no FDTD)")
     p.add_argument("case", help="TOML case file")
     p.add_argument("--rays", type=_positive_int, default=20000, help="rays per job (default 20000)")
-    p.add_argument("--lateral", choices=("absorbing", "periodic"), default="absorbing",
-                   help="lateral boundaries: absorbing like the FDTD's (default) or periodic")
+    p.add_argument("--lateral", choices=("absorbing", "periodic"),
+                   help="lateral boundaries: absorbing like the FDTD's, or periodic (default: periodic for a "
+                        "periodic pattern over a mirror, metal or substrate back, else absorbing)")
     p.add_argument("--seed", type=int, default=0, help="seed of the random numbers (default 0)")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
     _add_na(p)

@@ -146,3 +146,32 @@ def test_rays_refuses_periodic_for_a_random_surface(tmp_path):
                                         emitter={"depth": 1.0})))
     result = run_cli("rays", case, "--lateral", "periodic")
     assert_refused(result, "--lateral")
+
+
+THICK_FLAT = make_case(light={"wavelength": 0.6}, chip={"index": 2.5, "alpha": 4.0, "thickness": 500.0, "back": "mirror"},
+                       emitter={"depth": 250.0, "orientation": "out-of-plane"})
+"""A 500 µm flat chip on a mirror, alpha = 4 /cm: light crosses it a few times, far sideways."""
+
+
+def test_rays_on_a_thick_chip_use_periodic_sides_by_default(tmp_path):
+    """The default sides of a periodic (here flat) pattern on a chip far thicker than the window are
+    periodic: the escaped fraction equals the flat chip's incoherent sum of passes (derived in
+    references.multipass, Fresnel coefficients as tmm's, see test_multipass.py) within four standard
+    errors; asking for absorbing sides loses most of the light sideways and says so, naming the share
+    and the option."""
+    import outcouple
+    from references import multipass as m
+
+    R = lambda th: np.abs(m.planar.fresnel(2.5, 1.0, th)[0]) ** 2  # noqa: E731
+    exact = m.flat_closed_form("out-of-plane", R, lambda th: 1 - R(th), 4e-4, 250.0, 500.0,
+                               lambda th: np.ones_like(np.asarray(th, float)))
+    r = outcouple.rays(THICK_FLAT, rays=20000)
+    assert r["lateral"] == "periodic" and not r["warnings"]
+    assert within(r["efficiency"], exact, r["statistical_error"]), (r["efficiency"], exact)
+    path = tmp_path / "thick.toml"
+    path.write_text(case_toml(THICK_FLAT))
+    out = run_cli("rays", path, "--lateral", "absorbing", "--rays", "4000")
+    assert out.returncode == 0, out.stderr
+    assert "warning" in out.stderr and "--lateral periodic" in out.stderr and "% of the light left" in out.stderr
+    share = float(out.stderr.split("% of the light left")[0].split()[-1])
+    assert share > 50
