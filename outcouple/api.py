@@ -244,7 +244,8 @@ def rays(case, rays=20000, seed=0, lateral=None, na=None):
     """Ray-optics extraction on the FDTD's own geometry and domain (``outcouple rays``).
 
     ``lateral``: "absorbing", "periodic" or None (:func:`lateral_default`). With absorbing sides that
-    take more than :data:`SIDES_WARN` of the light, ``warnings`` names the share and the option.
+    take more than :data:`SIDES_WARN` of the light of a chip whose back sends light back up,
+    ``warnings`` ([key, message] pairs) names the share and the option.
     """
     from references.raytrace3d import trace_case
 
@@ -260,11 +261,12 @@ def rays(case, rays=20000, seed=0, lateral=None, na=None):
     result.update({"case": _source(case), "lateral": lateral, "elapsed": elapsed,
                    "events_per_second": result["events"] / elapsed if elapsed > 0 else None, "warnings": []})
     sides = result["budget"]["sides"]
-    if lateral == "absorbing" and sides > SIDES_WARN:
+    returns = math.isfinite(case.chip.thickness) and case.chip.back != "open"  # else light sideways is lost anyway
+    if lateral == "absorbing" and returns and sides > SIDES_WARN:
         fix = ("--lateral periodic repeats the pattern sideways as in a wide chip" if case.surface.pattern in PERIODIC
                else "a wider grid.width keeps more of it")
-        result["warnings"].append(("lateral", f"{100 * sides:.0f}% of the light left through the absorbing sides of "
-                                              f"the {2 * layout.x_side:g} µm window; {fix}"))
+        result["warnings"].append(["lateral", f"{100 * sides:.0f}% of the light left through the absorbing sides of "
+                                              f"the {2 * layout.x_side:g} µm window; {fix}"])
     if case.collection is not None:
         result.update(analysis.collection_summary(case, result))
     return result
