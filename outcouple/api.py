@@ -309,7 +309,9 @@ def report(source, output=None, na=None):
         grid = data["grid"]
         summary = summarise(case, data["jobs"], grid["wavelengths"], grid["resolution"])
         bounds = None if "reference" in summary else case_reference(case, modes=False)
-        text = html_report.result_report(data, case, layout, summary, bounds)
+        from . import thick_chip
+
+        text = html_report.result_report(data, case, layout, summary, bounds, thinning=thick_chip.cached_thinning(case))
         out = Path(output) if output else source.with_suffix(".html")
     if not out.parent.is_dir():
         raise CaseError("command line", "-o", f"the folder of {out} does not exist")

@@ -126,7 +126,7 @@ def top_response(case, angles=90, fdtd=None, workers=None, progress=True, cache=
         return _exact_tops(case, angles), {"source": "exact", "runs": 0, "cached": False}
     grid = response_grid(case, make_layout(case, fdtd=False).x_side * 2)
     key = response_key(case, angles, grid, fdtd)
-    path = cache_folder() / (hashlib.sha256(json.dumps(key, sort_keys=True).encode()).hexdigest()[:20] + ".h5")
+    path = _cache_path(key)
     found = redistribution.read_response(path, key) if cache else None
     if found is not None:
         tops, facts = found
@@ -136,6 +136,29 @@ def top_response(case, angles=90, fdtd=None, workers=None, progress=True, cache=
         path.parent.mkdir(parents=True, exist_ok=True)
         redistribution.write_response(path, key, tops, facts)
     return tops, {**facts, "source": "fdtd", "cached": False, "cache_file": str(path) if cache else None, **grid}
+
+
+def cached_thinning(case, angles=90):
+    """The thinning curves of a patterned case from its cached top response (90 bins), or None (a flat
+    top, not cached, or a case the multi-pass model does not take). Runs no Meep."""
+    if case.surface.pattern == "flat":
+        return None  # its curve is the flat top's: nothing to show beyond `reference`
+    try:
+        check_case(case, "case", angles)
+    except CaseError:
+        return None
+    grid = response_grid(case, make_layout(case, fdtd=False).x_side * 2)
+    key = response_key(case, angles, grid, True)
+    found = redistribution.read_response(_cache_path(key), key)
+    if found is None:
+        return None
+    tops = found[0]
+    flat = case.model_copy(update={"surface": Flat(pattern="flat")})
+    return thinning_curves(case, tops, angles, _exact_tops(flat, angles), list(np.geomspace(1.0, 1000.0, 31)))
+
+
+def _cache_path(key):
+    return cache_folder() / (hashlib.sha256(json.dumps(key, sort_keys=True).encode()).hexdigest()[:20] + ".h5")
 
 
 def _back(case, pol, lam):

@@ -349,7 +349,7 @@ def plot_thinning(curves, path, title=""):
                     color=FLUX_LINE_COLOUR, mfc="white", capsize=2, label="texture, ray optics")
     ax.set_xscale("log")
     ax.set_xlabel("chip thickness (µm)")
-    ax.set_ylabel("extraction efficiency")
+    ax.set_ylabel("extraction efficiency (top / emitted)")
     ax.set_ylim(bottom=0)
     ax.grid(True, which="both", alpha=0.25)
     ax.legend(fontsize=8, loc="best")

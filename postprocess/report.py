@@ -82,7 +82,7 @@ def _diff(a, b):
     return f"{100 * (a / b - 1):+.2f}%" if b else "n/a"
 
 
-def result_report(data, case, layout, summary, bounds=None):
+def result_report(data, case, layout, summary, bounds=None, thinning=None):
     """HTML text of the report of one result file.
 
     Parameters
@@ -99,6 +99,9 @@ def result_report(data, case, layout, summary, bounds=None):
         For a patterned surface, the reference values that bracket it
         (:func:`references.reference.case_reference`): flat baseline,
         randomising bound, escape cone.
+    thinning : dict, optional
+        Efficiency against chip thickness (:func:`outcouple.thick_chip.thinning_curves`), when the
+        case's top response is in the multi-pass cache; without it the section says how to get it.
     """
     grid = data["grid"]
     attrs = data["attrs"]
@@ -136,6 +139,17 @@ def result_report(data, case, layout, summary, bounds=None):
     else:
         body = "<p>no field pictures in this file (run with <code>outcouple run --fields</code>)</p>"
     sections.append(_section("fields", "Fields", body))
+    if thinning is not None:
+        body = _figure(plots.plot_thinning, thinning, alt="efficiency against chip thickness",
+                       title=f"the same top on a chip 1 to 1000 µm thick (back {case.chip.back}, "
+                             f"alpha {case.chip.alpha:g} /cm)")
+        body += ("<p class=\"note\">multi-pass model with the top's cached full-wave response (2-D, incoherent "
+                 "between passes, emitter far from the top); see the README's thick-chip section.</p>")
+    else:
+        body = ("<p>no thinning picture: for a patterned top, <code>outcouple multipass CASE</code> computes the "
+                "top's response (periodic cells, 90 angle bins) once and caches it; the report then shows the "
+                "efficiency against chip thickness.</p>")
+    sections.append(_section("thinning", "Thick chips: efficiency against thickness", body))
     sections.append(_section("cautions", "Cautions", f'<div class="caution">{CAUTIONS}</div>'))
     return _page(f"Light extraction: {attrs['case_file']}", sections)
 

@@ -166,6 +166,10 @@ def _kz_runs(facts):
             "the estimate")
 
 
+THICK_HINT_SECONDS = 24 * 3600.0
+"""``check`` points to ``multipass`` when the FDTD of a case would take longer than this."""
+
+
 def format_check(facts):
     """``outcouple check``: the validated case's grid, jobs and estimates."""
     ppw, lam = facts["points_per_wavelength"], facts["wavelengths"]
@@ -183,6 +187,9 @@ def format_check(facts):
            f"  estimate per job   about {est['time_steps']:,} time steps, {duration(est['seconds'])} "
            f"(without symmetry), {_human_bytes(est['memory_bytes'])}",
            f"  estimate in all    about {duration(facts['seconds_in_all'])} on {facts['workers']} worker(s)"]
+    if facts["seconds_in_all"] > THICK_HINT_SECONDS:
+        out.append("  thick chip?        an FDTD this long is not meant to run here; 'outcouple multipass' puts the "
+                   "top's full-wave response into a multi-pass model of the whole chip in minutes")
     if facts.get("second_grid"):
         out.append(f"  second grid        {facts['second_grid']:g} points/um (grid.extrapolate): every job runs on "
                    "both grids (counted above) and the run reports their Richardson extrapolation")

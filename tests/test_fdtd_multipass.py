@@ -110,3 +110,24 @@ def test_multipass_budget_adds_up_with_the_grating(grating):
     assert out["top_response"]["cached"]
     assert sum(out["budget"].values()) == pytest.approx(1.0, abs=1e-6)
     assert out["flat"] < out["efficiency"] < out["randomising"]
+
+
+def test_thinning_curves_and_the_report_hook(grating, tmp_path):
+    """The thinning picture's curves: at 1000 µm with alpha = 4 /cm the texture lies between the flat
+    top and the randomising bound, and every curve falls as the chip thickens (absorption); the ray
+    tracer runs on the same chips. The report's hook finds no 90-bin response in the cache (this test
+    made 8 bins) and runs nothing."""
+    from outcouple import thick_chip
+    from postprocess.plots import plot_thinning
+
+    data, (tops, _) = grating
+    case = parse_case(data, source="test")
+    flat = thick_chip._exact_tops(case.model_copy(update={"surface": thick_chip.Flat(pattern="flat")}), BINS)
+    curves = thick_chip.thinning_curves(case, tops, BINS, flat, [1.0, 30.0, 1000.0], rays=500, ray_points=2)
+    for key in ("flat", "texture", "randomising"):
+        assert curves[key][0] > curves[key][-1], key
+    assert curves["flat"][-1] < curves["texture"][-1] < curves["randomising"][-1]
+    assert len(curves["rays"]) == 2 and all(0 < r < 1 for r in curves["rays"])
+    plot_thinning(curves, tmp_path / "thin.png")
+    assert (tmp_path / "thin.png").stat().st_size > 10000
+    assert thick_chip.cached_thinning(case) is None

@@ -73,6 +73,9 @@ def test_every_picture(saved, tmp_path):
         (plots.plot_sweep, ({"keys": ["surface.period", "surface.height"], "mode": "grid",
                              "axes": {"surface.period": np.array([0.6, 0.8]), "surface.height": np.array([0.1, 0.2, 0.3])},
                              "efficiency": np.full((2, 3), 0.2), "flat_baseline": np.full((2, 3), 0.1)},), {}),
+        (plots.plot_thinning, ({"thickness": [1.0, 10.0, 100.0], "flat": [0.2, 0.2, 0.15], "texture": [0.8, 0.7, 0.4],
+                                "randomising": [0.9, 0.8, 0.5], "rays_thickness": [1.0, 100.0], "rays": [0.5, 0.3],
+                                "rays_error": [0.01, 0.01]},), {"title": "thinning"}),
     ]
     for draw, args, kwargs in calls:
         buffer = io.BytesIO()
