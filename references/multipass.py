@@ -195,3 +195,32 @@ def flat_closed_form(orientation, top_reflectance, top_transmittance, alpha_per_
         return float(planar.pattern(orientation, theta)) * float(top_transmittance(np.array(theta))) * first / (1 - again)
 
     return integrate.quad(integrand, -np.pi / 2, np.pi / 2, limit=400, epsabs=1e-12, epsrel=1e-10)[0]
+
+
+def ray_optics_top(scene, count, pol, rays_per_bin=4000, seed=0):
+    """The top's arrays in ray optics (references.raytrace), bin by bin like Meep's: for each bin,
+    ``rays_per_bin`` rays at the bin's centre direction start just below the texture at positions
+    spread evenly over one period (``scene``: periodic sides); rays that come back below the texture
+    are reflected light (binned by their direction), rays that escape are the far field. Lets the
+    multi-pass model run on ray optics with the same bins, to tell the bins' own error from wave
+    effects. ``scene``: a periodic scene whose back is an open line just below the texture and whose
+    chip does not absorb."""
+    from .raytrace import trace
+
+    rng = np.random.default_rng(seed)
+    edges, far = bin_edges(count), np.sin(np.radians(far_edges()))
+    centres = (edges[:-1] + edges[1:]) / 2
+    reflect, transmit = np.zeros((count, count)), np.zeros(count)
+    farfield = np.zeros((len(far) - 1, count))
+    x = scene.period * ((np.arange(rays_per_bin) + 0.5) / rays_per_bin - 0.5)
+    pos = np.column_stack([x, np.full(rays_per_bin, scene.y_back + 1e-6)])
+    for i, u in enumerate(centres):
+        d = np.column_stack([np.full(rays_per_bin, u), np.full(rays_per_bin, math.sqrt(1 - u * u))])
+        r = trace(scene, pos, d, pol, rng=rng, angles_out=True)
+        back = np.isfinite(r["down"])
+        reflect[:, i] = np.histogram(r["down"][back], bins=edges, weights=r["bottom"][back])[0] / rays_per_bin
+        out = np.isfinite(r["angle"])
+        s = np.sin(np.radians(r["angle"][out]))
+        farfield[:, i] = np.histogram(s, bins=far, weights=r["top"][out])[0] / rays_per_bin
+        transmit[i] = r["top"].sum() / rays_per_bin
+    return {"reflect": reflect, "transmit": transmit, "farfield": farfield}

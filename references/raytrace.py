@@ -256,12 +256,13 @@ def trace(scene, pos, d, pol, rng=None, weight_floor=1e-4, max_events=10000, ang
         number of interactions traced in all; a periodic wrap is not one,
         though it counts towards ``max_events``), and with ``angles_out`` the
         escape angle of each escaped ray (degrees from the normal, signed by
-        x) in ``angle`` (NaN for rays that did not escape).
+        x) in ``angle`` (NaN for rays that did not escape), and sin(theta) of each ray that left
+        through an open back in ``down``.
     """
     n = len(pos)
     rng = rng if rng is not None else np.random.default_rng(0)
     tally = {k: np.zeros(n) for k in ("top", "bottom", "sides", "absorbed", "truncated")}
-    angle = np.full(n, np.nan)
+    angle, down = np.full(n, np.nan), np.full(n, np.nan)
     normals = scene.segments[:, 1] - scene.segments[:, 0]
     normals = np.column_stack([-normals[:, 1], normals[:, 0]]) / np.linalg.norm(normals, axis=1)[:, None]
     sin_c = scene.n_ambient / scene.n_chip
@@ -286,6 +287,8 @@ def trace(scene, pos, d, pol, rng=None, weight_floor=1e-4, max_events=10000, ang
         px, py = px + t * dx, py + t * dy
         done = stuck | ((choice == 1) & (scene.back == "open"))
         tally["bottom"][ids[done]] += w[done]
+        if angles_out:
+            down[ids[done & ~stuck]] = dx[done & ~stuck]
 
         esc = choice == 2
         tally["top"][ids[esc]] += w[esc]
@@ -358,7 +361,7 @@ def trace(scene, pos, d, pol, rng=None, weight_floor=1e-4, max_events=10000, ang
     tally["absorbed"] = 1 - (tally["top"] + tally["bottom"] + tally["sides"] + tally["truncated"])
     result = {**tally, "events": total_events}
     if angles_out:
-        result["angle"] = angle
+        result["angle"], result["down"] = angle, down
     return result
 
 
