@@ -295,8 +295,8 @@ def format_multipass(result):
     out.append(f"  ideal randomising top    {result['randomising']:.4f}")
     b = result["budget"]
     out.append("\n  budget (fractions of the emitted power):")
-    out.append("    " + "   ".join(f"{k} {b[k]:.4f}" for k in ("top", "back", "absorbed_chip", "absorbed_metal",
-                                                                "absorbed_top", "trapped")))
+    out.append("    " + "   ".join(f"{k} {round(b[k], 4) + 0.0:.4f}"  # + 0.0: no "-0.0000" from rounding
+                                   for k in ("top", "back", "absorbed_chip", "absorbed_metal", "absorbed_top", "trapped")))
     out.append(f"  passes carrying 99% of the escaped light: {result['passes_99']}")
     far = np.asarray(result["farfield"]["intensity"])
     if far.sum() > 0:
