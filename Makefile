@@ -64,6 +64,7 @@ bench: setup
 	@$(PY) bench/bench_rays.py
 	@$(PY) bench/bench_sweep.py
 	@$(PY) bench/bench_runner.py
+	@$(PY) bench/validate_multipass.py speed
 
 clean:
 	rm -rf $(VENV) demo_output
