@@ -73,8 +73,7 @@ def main(parts):
         thick_chip.solve_case(thick, tops, 90)
         times = []
         for t in np.geomspace(1, 1000, 30):
-            one = thick_chip.with_chip(thick, thickness=float(t))
-            one = one.model_copy(update={"emitter": one.emitter.model_copy(update={"depth": min(150.0, t / 2)})})
+            one = thick_chip.chip_at(thick, thickness=float(t))
             began = time.perf_counter()
             thick_chip.solve_case(one, tops, 90)
             times.append(time.perf_counter() - began)

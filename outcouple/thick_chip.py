@@ -51,21 +51,26 @@ def check_case(case, source, angles):
                         f"({case.chip.thickness:g} µm thick)")
 
 
+def _pols(case):
+    """The 2-D polarisations the case's emitter orientations radiate, sorted."""
+    return sorted({POLARISATION_OF[o] for o in case.emitter.orientations()})
+
+
 def response_key(case, angles, grid, fdtd):
     """Everything the top's response depends on (JSON-ready); its hash names the cache file."""
     return {"format": redistribution.RESPONSE_FORMAT, "source": "fdtd" if fdtd else "exact",
             "surface": case.surface.model_dump(), "chip_index": case.chip.index,
             "ambient_index": case.ambient.index, "films": [f.model_dump() for f in case.film],
             "wavelengths": [float(w) for w in case.light.wavelengths()], "angles": angles,
-            "pols": sorted({POLARISATION_OF[o] for o in case.emitter.orientations()}), **(grid if fdtd else {})}
+            "pols": _pols(case), **(grid if fdtd else {})}
 
 
 def _exact_tops(case, angles):
     tops = {}
-    lossless = case.model_copy(update={"chip": case.chip.model_copy(update={"alpha": 0.0})})
+    lossless = with_chip(case, alpha=0.0)
     for i, lam in enumerate(case.light.wavelengths()):
         stack = stack_at(lossless, lam)
-        for pol in sorted({POLARISATION_OF[o] for o in case.emitter.orientations()}):
+        for pol in _pols(case):
             def reflect(theta, pol=pol, stack=stack, lam=lam):
                 return multilayer.response(stack, pol, lam, theta)["R_up"]
 
@@ -80,7 +85,7 @@ def _fdtd_tops(case, angles, grid, workers, progress):
     symmetric = case.surface.pattern in SYMMETRIC
     centres = bin_centres(angles)
     lit = [i for i, u in enumerate(centres) if u >= 0 or not symmetric]
-    pols = sorted({POLARISATION_OF[o] for o in case.emitter.orientations()})
+    pols = _pols(case)
     items, where = [], []
     for w, lam in enumerate(case.light.wavelengths()):
         for pol in pols:
@@ -124,9 +129,7 @@ def top_response(case, angles=90, fdtd=None, workers=None, progress=True, cache=
         if case.surface.pattern != "flat":
             raise CaseError("command line", "--response", f"exact needs a flat top, not {case.surface.pattern!r}")
         return _exact_tops(case, angles), {"source": "exact", "runs": 0, "cached": False}
-    grid = response_grid(case, make_layout(case, fdtd=False).x_side * 2)
-    key = response_key(case, angles, grid, fdtd)
-    path = _cache_path(key)
+    grid, key, path = _response_file(case, angles)
     found = redistribution.read_response(path, key) if cache else None
     if found is not None:
         tops, facts = found
@@ -147,9 +150,8 @@ def cached_thinning(case, angles=90):
         check_case(case, "case", angles)
     except CaseError:
         return None
-    grid = response_grid(case, make_layout(case, fdtd=False).x_side * 2)
-    key = response_key(case, angles, grid, True)
-    found = redistribution.read_response(_cache_path(key), key)
+    _, key, path = _response_file(case, angles)
+    found = redistribution.read_response(path, key)
     if found is None:
         return None
     tops = found[0]
@@ -157,8 +159,12 @@ def cached_thinning(case, angles=90):
     return thinning_curves(case, tops, angles, _exact_tops(flat, angles), list(np.geomspace(1.0, 1000.0, 31)))
 
 
-def _cache_path(key):
-    return cache_folder() / (hashlib.sha256(json.dumps(key, sort_keys=True).encode()).hexdigest()[:20] + ".h5")
+def _response_file(case, angles):
+    """(grid, key, path) of a patterned case's Meep response in the cache."""
+    grid = response_grid(case, make_layout(case, fdtd=False).x_side * 2)
+    key = response_key(case, angles, grid, True)
+    name = hashlib.sha256(json.dumps(key, sort_keys=True).encode()).hexdigest()[:20] + ".h5"
+    return grid, key, cache_folder() / name
 
 
 def _back(case, pol, lam):
@@ -167,8 +173,7 @@ def _back(case, pol, lam):
         return lambda theta: np.zeros_like(theta)
     if case.chip.back == "mirror":
         return lambda theta: np.ones_like(theta)
-    lossless = case.model_copy(update={"chip": case.chip.model_copy(update={"alpha": 0.0})})
-    stack = stack_at(lossless, lam)
+    stack = stack_at(with_chip(case, alpha=0.0), lam)
     return lambda theta: multilayer.response(stack, pol, lam, theta)["R_down"]
 
 
@@ -178,16 +183,18 @@ def solve_case(case, tops, angles):
     alpha, t, d = case.chip.alpha_per_um, case.chip.thickness, case.emitter.depth
     per, spectrum, budgets, far, passes = {}, [], [], np.zeros(len(far_edges()) - 1), []
     wavelengths = case.light.wavelengths()
+    crossing = model.bin_average(lambda th: model.attenuation(alpha, t, th), angles)
     for w, lam in enumerate(wavelengths):
-        values = []
+        values, sides = [], {}
+        for pol in _pols(case):  # the back side per polarisation, shared by its orientations
+            back = _back(case, pol, lam)
+            sides[pol] = (back, model.bin_average(lambda th: back(th) * model.attenuation(alpha, 2 * t, th), angles),
+                          model.bin_average(back, angles))
         for orientation in case.emitter.orientations():
             pol = POLARISATION_OF[orientation]
-            top = tops[(w, float(lam), pol)]
-            back = _back(case, pol, lam)
+            back, round_trip, back_reflect = sides[pol]
             s0, d0 = model.emitter_light(orientation, angles, alpha, d, t, back)
-            crossing = model.bin_average(lambda th: model.attenuation(alpha, t, th), angles)
-            round_trip = model.bin_average(lambda th: back(th) * model.attenuation(alpha, 2 * t, th), angles)
-            r = model.solve(top, s0, d0, crossing, round_trip, model.bin_average(back, angles), case.chip.back)
+            r = model.solve(tops[(w, float(lam), pol)], s0, d0, crossing, round_trip, back_reflect, case.chip.back)
             values.append(r["efficiency"])
             per.setdefault(orientation, []).append(r["efficiency"])
             budgets.append(r["budget"])
@@ -240,29 +247,30 @@ def parse_axis(text):
     return key, [float(v) for v in values]
 
 
-def thinning_depth(case, thickness):
-    """The emitter's depth in a chip of ``thickness``: the case's, or mid-chip if that is deeper."""
-    return min(case.emitter.depth, thickness / 2)
+def chip_at(case, **values):
+    """The case with chip keys replaced (a sweep point), its emitter mid-chip if the chip is thinner
+    than twice the emitter's depth."""
+    c = with_chip(case, **values)
+    depth = min(case.emitter.depth, c.chip.thickness / 2)
+    return c.model_copy(update={"emitter": case.emitter.model_copy(update={"depth": depth})})
 
 
 def thinning_curves(case, tops, angles, flat_tops, thicknesses, rays=4000, ray_points=7, seed=0):
     """Efficiency against chip thickness: flat top, the texture (its response), the texture in ray
     optics (periodic sides, ``ray_points`` thicknesses) and the randomising bound; the emitter at
-    :func:`thinning_depth`."""
+    :func:`chip_at`."""
     from references.raytrace3d import trace_case
 
     curves = {"thickness": list(thicknesses), "flat": [], "texture": [], "randomising": []}
     for t in thicknesses:
-        c = with_chip(case, thickness=t).model_copy(
-            update={"emitter": case.emitter.model_copy(update={"depth": thinning_depth(case, t)})})
+        c = chip_at(case, thickness=t)
         curves["flat"].append(solve_case(c, flat_tops, angles)["efficiency"])
         curves["texture"].append(solve_case(c, tops, angles)["efficiency"])
         curves["randomising"].append(randomising(c))
     ray_t = list(np.geomspace(min(thicknesses), max(thicknesses), ray_points)) if ray_points else []
     curves["rays_thickness"], curves["rays"], curves["rays_error"] = [], [], []
     for t in ray_t:
-        c = with_chip(case, thickness=float(t)).model_copy(
-            update={"emitter": case.emitter.model_copy(update={"depth": thinning_depth(case, t)})})
+        c = chip_at(case, thickness=float(t))
         try:
             r = trace_case(c, make_layout(c, fdtd=False), rays=rays, lateral="periodic", seed=seed)
         except CaseError:  # a chip too thin for the pattern and the emitter: no ray point there
@@ -302,10 +310,7 @@ def run(case, source, angles=90, response=None, workers=None, progress=True, var
             points = [{**p, key: v} for p in points for v in values]
         result["sweep"] = []
         for p in points:
-            c = with_chip(case, **{VARIABLE[k]: v for k, v in p.items()})
-            c = c.model_copy(update={"emitter": case.emitter.model_copy(
-                update={"depth": thinning_depth(case, c.chip.thickness)})})
-            one = solve_case(c, tops, angles)
+            one = solve_case(chip_at(case, **{VARIABLE[k]: v for k, v in p.items()}), tops, angles)
             result["sweep"].append({**p, "efficiency": one["efficiency"], "budget": one["budget"],
                                     "passes_99": one["passes_99"]})
     if plot is not None:

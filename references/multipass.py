@@ -143,7 +143,7 @@ def solve(top, s0, d0, crossing, round_trip, back_reflect, back_kind):
     """
     R, T = top["reflect"], top["transmit"]
     M = round_trip[:, None] * R
-    loss = 1.0 - (round_trip * R.sum(axis=0))
+    loss = 1.0 - M.sum(axis=0)  # per incident bin: what one round trip loses
     trapped = 0.0
     if np.min(loss) > 1e-12:
         x = np.linalg.solve(np.eye(len(s0)) - M, s0)
