@@ -251,12 +251,16 @@ def _check_epsilon(sim, case, layout, x0):
 
     Guards the periodicity trap described in the module docstring (an object filling the cell).
     """
-    for (x, y), index, what in (((x0, -layout.depth), case.chip.index, "chip"),
-                                ((0.0, layout.y_top), case.ambient.index, "ambient")):
+    check_epsilon(sim, (((x0, -layout.depth), case.chip.index, "chip"), ((0.0, layout.y_top), case.ambient.index, "ambient")),
+                  "the geometry was not built as laid out")
+
+
+def check_epsilon(sim, points, what):
+    """Raise RuntimeError unless epsilon is index^2 at each ((x, y), index, name) of ``points``."""
+    for (x, y), index, name in points:
         eps = sim.get_epsilon_point(mp.Vector3(x, y))
         if abs(eps - index ** 2) > 1e-6 * index ** 2:
-            raise RuntimeError(f"the {what} at ({x:g}, {y:g}) has epsilon {eps:g}, not {index ** 2:g}: "
-                               "the geometry was not built as laid out")
+            raise RuntimeError(f"the {name} at ({x:g}, {y:g}) has epsilon {eps:g}, not {index ** 2:g}: {what}")
 
 
 def run_job(case, layout, orientation, x0, symmetric, field_map=False, kz=None, wavelength=None, kz_mode=KZ_MODE,

@@ -16,6 +16,11 @@ from .layout import whole_cells
 POLARISATION_OF = {"out-of-plane": "s", "parallel": "p", "normal": "p"}
 """The 2-D polarisation an emitter orientation radiates: s (E along z) or p (E in the x-y plane)."""
 
+SAVED_FIELDS = {"s": ("ez", "hx"), "p": ("ex", "hz")}
+"""The (E, H) pair saved on a line along x per polarisation: the two whose product is the flux
+through it (:mod:`postprocess.flux`). s has E along z (out-of-plane emitters), p has E in the x-y
+plane (in-plane emitters); in 2-D the two never mix."""
+
 RESPONSE_PPW = 24
 """Least points per wavelength in the densest material of the periodic cells. A flat n = 2.5 top
 lit at normal incidence reflects 0.17845 at 16.8 points, 0.18238 at 33.6 and 0.18335 at 67.2, against

@@ -24,14 +24,15 @@ sin(angle)).
 import numpy as np
 
 from fdtd_cases.angle_bins import bin_edges, far_edges, spread
+from fdtd_cases.periodic_cell import SAVED_FIELDS
 
-SAVED = {"s": (("ez", "hx"), 1.0), "p": (("ex", "hz"), -1.0)}
-"""Polarisation -> ((E, H) pair, sign) of the +y flux, as in postprocess.flux."""
+FLUX_SIGN = {"s": 1.0, "p": -1.0}
+"""Sign of conj(E) H in the +y flux of each polarisation's pair (SAVED_FIELDS), as in postprocess.flux."""
 
 
 def orders(fields, pol, kx, period, cells):
     """(order numbers m, kx of each order in cycles per µm, +y flux of each order) of one line."""
-    (e, h), sign = SAVED[pol]
+    (e, h), sign = SAVED_FIELDS[pol], FLUX_SIGN[pol]
     x = np.arange(cells) * (period / cells)
     unbloch = np.exp(-2j * np.pi * kx * x)
     E = np.fft.fft(np.asarray(fields[e])[:cells] * unbloch) / cells
@@ -55,7 +56,7 @@ def incidence(bare, texture, pol, period, wavelength, n_chip, n_ambient):
     _, _, inc = orders(bare["lines"]["incident"], pol, kx, period, cells)
     power = float(inc.sum())
     diff = {c: np.asarray(texture["lines"]["below"][c]) - np.asarray(bare["lines"]["below"][c])
-            for c in SAVED[pol][0]}
+            for c in SAVED_FIELDS[pol]}
     m, k, down = orders(diff, pol, kx, period, cells)
     reflected = [(int(a), float(b / (n_chip * f)), float(-c / power)) for a, b, c in zip(m, k, down)
                  if abs(b) < n_chip * f]
