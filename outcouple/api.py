@@ -236,8 +236,12 @@ def lateral_default(case):
     sends light back up (mirror, metal, substrate): light crosses such a chip many times and travels
     far sideways, and absorbing sides would take what a wide chip keeps (a 500 µm flat chip on a
     mirror lost 93% through the sides of its window). Else absorbing, like the FDTD's."""
-    returns = math.isfinite(case.chip.thickness) and case.chip.back != "open"
-    return "periodic" if returns and case.surface.pattern in PERIODIC else "absorbing"
+    return "periodic" if _sends_light_back(case) and case.surface.pattern in PERIODIC else "absorbing"
+
+
+def _sends_light_back(case):
+    """A finite chip whose back (mirror, metal, substrate) returns light to the top."""
+    return math.isfinite(case.chip.thickness) and case.chip.back != "open"
 
 
 def rays(case, rays=20000, seed=0, lateral=None, na=None):
@@ -261,8 +265,8 @@ def rays(case, rays=20000, seed=0, lateral=None, na=None):
     result.update({"case": _source(case), "lateral": lateral, "elapsed": elapsed,
                    "events_per_second": result["events"] / elapsed if elapsed > 0 else None, "warnings": []})
     sides = result["budget"]["sides"]
-    returns = math.isfinite(case.chip.thickness) and case.chip.back != "open"  # else light sideways is lost anyway
-    if lateral == "absorbing" and returns and sides > SIDES_WARN:
+    # Without a returning back, light leaving sideways is lost anyway: no warning.
+    if lateral == "absorbing" and _sends_light_back(case) and sides > SIDES_WARN:
         fix = ("--lateral periodic repeats the pattern sideways as in a wide chip" if case.surface.pattern in PERIODIC
                else "a wider grid.width keeps more of it")
         result["warnings"].append(["lateral", f"{100 * sides:.0f}% of the light left through the absorbing sides of "
