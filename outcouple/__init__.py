@@ -19,13 +19,29 @@ the runner).
 from fdtd_cases.errors import CaseError
 from postprocess.results import ResultFileError
 
-from .api import Result, check, load_case, multipass, plot, rays, reference, report, run, show
-from .comparison import compare
-from .grid_convergence import converge
-from .sweeps import collect
-from .sweeps import report_status as status
-from .sweeps import start as sweep
 from .version import __version__
+
+# The API's functions are imported when first used: a SLURM array task (``python -m
+# outcouple.sweep_task``) imports this package too, and needs none of them (half a second a task).
+_PUBLIC = {"Result": ".api", "check": ".api", "load_case": ".api", "multipass": ".api", "plot": ".api",
+           "rays": ".api", "reference": ".api", "report": ".api", "run": ".api", "show": ".api",
+           "compare": ".comparison", "converge": ".grid_convergence", "collect": ".sweeps",
+           "status": (".sweeps", "report_status"), "sweep": (".sweeps", "start")}
 
 __all__ = ["CaseError", "Result", "ResultFileError", "__version__", "check", "collect", "compare", "converge",
            "load_case", "multipass", "plot", "rays", "reference", "report", "run", "show", "status", "sweep"]
+
+
+def __getattr__(name):
+    import importlib
+
+    if name not in _PUBLIC:
+        raise AttributeError(f"module 'outcouple' has no attribute {name!r}")
+    module, attribute = _PUBLIC[name] if isinstance(_PUBLIC[name], tuple) else (_PUBLIC[name], name)
+    value = getattr(importlib.import_module(module, __name__), attribute)
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_PUBLIC))

@@ -65,7 +65,6 @@ and for large n (cos tc -> 1, tc -> 0) these become Yablonovitch's
 """
 
 import numpy as np
-from scipy import integrate, special
 
 from .planar import critical_angle, fresnel
 
@@ -86,6 +85,8 @@ def escape_cone(orientation, n_chip, n_ambient=1.0, dim=2, fresnel_losses=False)
     fresnel_losses : bool
         Weight the cone by the interface transmission (quadrature) instead of 1.
     """
+    from scipy import integrate  # here: scipy.integrate loads scipy.optimize (start-up time)
+
     tc = critical_angle(n_chip, n_ambient)
     if orientation == "in-plane":  # the two in-plane directions, equal intrinsic strength
         return sum(escape_cone(o, n_chip, n_ambient, dim, fresnel_losses) for o in ("parallel", "out-of-plane")) / 2
@@ -137,6 +138,8 @@ def lambertian_escape(n_chip, n_ambient=1.0, dim=3):
 
 def _lambertian_mean(x, lower, dim):
     """Mean of e^{-x / cos theta} over Lambertian directions with theta from ``lower`` to pi/2."""
+    from scipy import integrate  # here: scipy.integrate loads scipy.optimize (start-up time)
+
     if dim == 3:
         num = integrate.quad(lambda th: np.cos(th) * np.sin(th) * np.exp(-x / max(np.cos(th), 1e-300)),
                              lower, np.pi / 2, epsabs=1e-14, epsrel=1e-12)[0]
@@ -151,6 +154,8 @@ def lambertian_transmittance(attenuation, dim=3):
 
     3-D: 2 E_3(alpha w); 2-D: integral_0^{pi/2} cos theta e^{-alpha w / cos theta} dtheta.
     """
+    from scipy import special  # here, not at the top: start-up time
+
     x = float(attenuation)
     if x == 0:
         return 1.0
@@ -161,6 +166,8 @@ def lambertian_transmittance(attenuation, dim=3):
 
 def isotropic_transmittance(attenuation, dim=3):
     """Transmittance tau of isotropic emission from a point through an absorbing thickness (alpha * d)."""
+    from scipy import integrate, special  # here: scipy.integrate loads scipy.optimize (start-up time)
+
     x = float(attenuation)
     if x == 0:
         return 1.0

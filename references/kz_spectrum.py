@@ -28,7 +28,6 @@ half-space; the ambient's branch point is integrable).
 """
 
 import numpy as np
-from scipy import integrate
 
 from .multilayer import _amplitude_weight, _cavity, _escaping
 
@@ -49,6 +48,8 @@ def _factor(kind, kx, kappa):
 
 def _quad(f, a, b):
     """integral_a^b f, mapped by x = a + (b - a) sin^2 t so square-root ends integrate smoothly."""
+    from scipy import integrate  # here, not at the top: scipy.integrate loads scipy.optimize (start-up time)
+
     def mapped(t):
         return f(a + (b - a) * np.sin(t) ** 2) * (b - a) * np.sin(2 * t)
     return integrate.quad(mapped, 0.0, np.pi / 2, limit=400, epsabs=1e-13, epsrel=1e-10)[0]

@@ -75,7 +75,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize
 
 from .quadrature import gauss as _gauss
 from .quadrature import gauss_sqrt_ends as _gauss_sqrt_ends
@@ -292,6 +291,8 @@ def _guided(stack, parts, dim, k0, k_ref, depth, k_radiating):
             with np.errstate(divide="ignore", invalid="ignore"):
                 value = np.imag(1 / g(kappa)[0])
             return float(value) if np.isfinite(value) else 0.0
+
+        from scipy import optimize  # here, not at the top: a third of a second of every start-up
 
         h = np.imag(g(x))
         # Im g changes sign through infinity at a pole and through zero elsewhere; Im(1/g) is zero

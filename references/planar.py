@@ -37,7 +37,6 @@ Extraction efficiency = top / emitted.
 """
 
 import numpy as np
-from scipy import integrate
 
 
 
@@ -100,6 +99,8 @@ def _reflection(orientation, n_chip, n_ambient, theta, ideal_cone=False):
 
 
 def _quad(f, a, b):
+    from scipy import integrate  # here, not at the top: scipy.integrate loads scipy.optimize (start-up time)
+
     if b <= a:
         return 0.0
     value, _ = integrate.quad(f, a, b, limit=800, epsabs=1e-12, epsrel=1e-10)
