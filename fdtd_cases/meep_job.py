@@ -138,6 +138,10 @@ def chip_objects(surface, polygon, material, cell):
     script extrapolates to the same 0.0987). A grating is therefore built as a block for the chip
     below its grooves and a block per ridge.
 
+    A flat chip is one block: the same efficiency and budget as the rectangle as a prism to eight
+    digits (a flat n = 3.3 chip; a chip on a mirror and one on a substrate, three orientations),
+    and Meep sets it up five times faster (0.14 s instead of 0.76 s for a 4 µm window).
+
     Other patterns (sloped or curved faces) are a prism, but only over the textured band: a block
     holds the chip from its bottom to two cells below the pattern's deepest point, and the prism
     (the surface, closed four cells below that point) overlaps it by two cells. Meep's cost of a
@@ -153,8 +157,10 @@ def chip_objects(surface, polygon, material, cell):
     """
     x_min, x_max = polygon[:, 0].min(), polygon[:, 0].max()
     y_bottom = polygon[:, 1].min()
-    if surface.pattern == "flat":
-        return [mp.Prism(vertices=[mp.Vector3(x, y) for x, y in polygon], height=mp.inf, material=material)]
+    if surface.pattern == "flat":  # the polygon is a rectangle
+        y_top = polygon[:, 1].max()
+        return [mp.Block(center=mp.Vector3((x_min + x_max) / 2, (y_bottom + y_top) / 2),
+                         size=mp.Vector3(x_max - x_min, y_top - y_bottom, mp.inf), material=material)]
     if surface.pattern != "grating":
         surface_line = polygon[:-2]  # geometry.chip_polygon: the surface, then two bottom corners
         deepest = surface_line[:, 1].min()
