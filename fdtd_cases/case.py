@@ -333,9 +333,12 @@ class Cluster(_Table):
         CPUs per task (1 for serial Meep).
     extra : list of str
         Further ``#SBATCH`` lines, without the prefix ("--qos=short").
-    jobs_per_task : int
-        Sweep jobs run one after the other by each array task (default 1);
-        more amortise each task's start-up (Python and Meep loading, queueing).
+    jobs_per_task : int, optional
+        Sweep jobs run one after the other by each array task. Default: one
+        task per CPU slot of the partition when the sweep has more jobs than
+        slots (``sinfo``), else one job per task; each task's start-up
+        (queueing, Python and Meep loading, about 2 s) is then paid once per
+        slot instead of once per job. ``time`` is per task.
     mpi_ranks : int
         Above 1: each task runs its jobs with the MPI build of Meep on this
         many processes (the Python that submits must import that build).
@@ -348,7 +351,7 @@ class Cluster(_Table):
     mem: Optional[str] = None
     cpus: Optional[Annotated[int, Field(ge=1, le=1024)]] = None
     extra: list[str] = []
-    jobs_per_task: Annotated[int, Field(ge=1, le=10000)] = 1
+    jobs_per_task: Optional[Annotated[int, Field(ge=1, le=10000)]] = None
     mpi_ranks: Annotated[int, Field(ge=1, le=4096)] = 1
     mpi_launch: str = "mpirun -np {ranks}"
 

@@ -291,7 +291,9 @@ def build_parser():
     p.add_argument("--mem", help="slurm: memory per task, e.g. 2G")
     p.add_argument("--cpus", type=_positive_int, help="slurm: CPUs per task")
     p.add_argument("--sbatch", action="append", metavar="LINE", help="slurm: an extra #SBATCH line (repeatable)")
-    p.add_argument("--jobs-per-task", type=_positive_int, help="slurm: sweep jobs per array task (default 1)")
+    p.add_argument("--jobs-per-task", type=_positive_int,
+                   help="slurm: sweep jobs per array task (default: one task per CPU of the partition when the "
+                        "sweep has more jobs than CPUs, else 1)")
     p.add_argument("--wait", type=_positive_int, metavar="SECONDS",
                    help="slurm: wait up to SECONDS for the array to finish, then report")
     p.add_argument("--quiet", action="store_true", help="no progress display")

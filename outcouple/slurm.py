@@ -42,6 +42,41 @@ def batch_script(out_dir, batch_file, count, cluster, python):
     return "\n".join(lines) + "\n"
 
 
+def partition_cpus(partition=None):
+    """CPUs of a partition (the default one when None) that are allocated or idle, from ``sinfo``; None
+    when SLURM does not say."""
+    if shutil.which("sinfo") is None:
+        return None
+    try:
+        done = subprocess.run(["sinfo", "-h", "-o", "%P %C"], capture_output=True, text=True, timeout=30)
+    except (OSError, subprocess.SubprocessError):
+        return None
+    for line in done.stdout.splitlines():
+        name, _, cpus = line.strip().partition(" ")
+        if (partition is None and name.endswith("*")) or name.rstrip("*") == partition:
+            try:
+                allocated, idle, _, _ = (int(n) for n in cpus.split("/"))
+            except ValueError:
+                return None
+            return allocated + idle
+    return None
+
+
+def jobs_per_task(count, cluster):
+    """Jobs per array task for ``count`` jobs: the cluster's ``jobs_per_task`` when given, else one task per
+    CPU slot of the partition (CPUs / CPUs per task) when there are more jobs than slots, else 1.
+
+    Each task pays SLURM's start (the scheduler places tasks on a one-second tick) and a Python and
+    Meep start (about a second); packing pays them once per slot. The tasks still fill the partition.
+    """
+    if cluster.get("jobs_per_task"):
+        return int(cluster["jobs_per_task"])
+    cpus = partition_cpus(cluster.get("partition"))
+    per_slot = int(cluster.get("cpus") or cluster.get("mpi_ranks") or 1)
+    slots = (cpus or 0) // per_slot
+    return max(1, -(-count // slots)) if slots else 1
+
+
 def _queue():
     """{(slurm job id, array task) or (job id, None): state} from squeue; {} without SLURM."""
     if shutil.which("squeue") is None:

@@ -239,7 +239,8 @@ def run_local(out_dir, workers=None, progress=True):
 
 
 def submit_slurm(out_dir, cluster, python):
-    """Submit the jobs that are missing or failed (and not queued) as one array; returns (job id, count)."""
+    """Submit the jobs that are missing or failed (and not queued) as one array; returns (job id, tasks,
+    jobs per task)."""
     if shutil.which("sbatch") is None:
         raise CaseError("command line", "--engine", "slurm: sbatch is not on the PATH (is SLURM installed, and is "
                         "this a login node?)")
@@ -248,13 +249,13 @@ def submit_slurm(out_dir, cluster, python):
     todo = [job["id"] for point in the_plan["points"] for job in point["jobs"]
             if job_state(out_dir, job)[0] != "done" and job["id"] not in queued]
     if not todo:
-        return None, 0
+        return None, 0, 0
     folder = slurm.slurm_dir(out_dir)
     folder.mkdir(parents=True, exist_ok=True)
     number = len(slurm.batches(out_dir))
     batch = folder / f"batch-{number:03d}.json"
     script = folder / f"batch-{number:03d}.sh"
-    per_task = int(cluster.get("jobs_per_task") or 1)
+    per_task = slurm.jobs_per_task(len(todo), cluster)
     tasks = -(-len(todo) // per_task)
     script.write_text(slurm.batch_script(out_dir, batch, tasks, cluster, python))
     batch.write_text(json.dumps({"jobs": todo, "per_task": per_task}))
@@ -264,7 +265,7 @@ def submit_slurm(out_dir, cluster, python):
         raise CaseError("command line", "--engine", f"slurm: sbatch refused the array: {done.stderr.strip()}")
     job = done.stdout.strip().split(";")[0]
     batch.write_text(json.dumps({"jobs": todo, "per_task": per_task, "slurm_job": job}))
-    return job, tasks
+    return job, tasks, per_task
 
 
 def point_summaries(out_dir, the_plan):
@@ -333,8 +334,8 @@ def start(case_file, out, engine="local", workers=None, progress=True, cluster=N
         settings = case.cluster.model_dump()
         settings.update({k: v for k, v in (cluster or {}).items() if v is not None and k != "extra"})
         settings["extra"] = settings["extra"] + list((cluster or {}).get("extra") or [])
-        job, tasks = submit_slurm(out, settings, sys.executable)
-        info.update({"slurm_job": job, "tasks": tasks, "jobs_per_task": settings["jobs_per_task"]})
+        job, tasks, per_task = submit_slurm(out, settings, sys.executable)
+        info.update({"slurm_job": job, "tasks": tasks, "jobs_per_task": per_task})
         if wait:
             info["counts"] = wait_for(out, wait)
         return info
@@ -350,7 +351,7 @@ def wait_for(out, seconds):
     """Wait up to ``seconds`` while SLURM tasks of the sweep are queued or running; the final counts."""
     deadline = time.monotonic() + seconds
     while status(out)[1]["running"] and time.monotonic() < deadline:
-        time.sleep(2)
+        time.sleep(1)
     return status(out)[1]
 
 

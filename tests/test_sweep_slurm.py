@@ -68,7 +68,8 @@ def test_slurm_sweep_survives_a_killed_task(tmp_path):
     case = tmp_path / "sweep.toml"
     case.write_text(SWEEP)
     out = tmp_path / "cluster"
-    submitted = run_cli("sweep", case, "--out", out, "--engine", "slurm", cwd=tmp_path)
+    # One job per task (the default would pack the 4 jobs into one task per CPU): task 1 is job 1.
+    submitted = run_cli("sweep", case, "--out", out, "--engine", "slurm", "--jobs-per-task", "1", cwd=tmp_path)
     assert submitted.returncode == 0, submitted.stderr
     job = submitted.stdout.split("job array ")[1].split()[0]
 
@@ -138,6 +139,46 @@ def test_slurm_tasks_can_run_batches_of_jobs(tmp_path):
     assert result.returncode == 0, result.stdout + result.stderr
     assert "with 2 task(s)" in result.stdout and "done 4" in result.stdout, result.stdout
     assert len(list((out / "jobs").glob("*.h5"))) == 4
+
+
+@requires_meep
+@pytest.mark.fdtd
+@needs_slurm
+def test_default_array_has_one_task_per_cpu(tmp_path):
+    """No --jobs-per-task: the 4 jobs are packed into one task per CPU of the partition (sinfo's count,
+    the cluster's own word), and every job file is written."""
+    cpus = [line.split() for line in subprocess.run(["sinfo", "-h", "-o", "%P %C"], capture_output=True, text=True,
+                                                     timeout=20).stdout.splitlines()]
+    allocated, idle, _, _ = (int(n) for n in next(c for name, c in cpus if name.endswith("*")).split("/"))
+    per_task = -(-4 // (allocated + idle))
+    case = tmp_path / "sweep.toml"
+    case.write_text(SWEEP)
+    out = tmp_path / "packed"
+    result = run_cli("sweep", case, "--out", out, "--engine", "slurm", "--wait", "300", cwd=tmp_path)
+    assert result.returncode == 0, result.stdout + result.stderr
+    assert f"with {-(-4 // per_task)} task(s) ({per_task} job(s) per task" in result.stdout, result.stdout
+    assert "done 4" in result.stdout and len(list((out / "jobs").glob("*.h5"))) == 4, result.stdout
+
+
+def test_jobs_per_task_rule(tmp_path, monkeypatch):
+    """The packing rule against a stand-in sinfo (no SLURM needed): one task per CPU slot of the named or
+    default partition when there are more jobs than slots; the cluster's own setting wins; 1 when
+    sinfo says nothing."""
+    from outcouple import slurm
+
+    fake = tmp_path / "sinfo"
+    fake.write_text("#!/bin/sh\necho 'small* 1/3/0/4'\necho 'big 10/90/4/104'\n")
+    fake.chmod(0o755)
+    monkeypatch.setenv("PATH", f"{tmp_path}{os.pathsep}{os.environ['PATH']}")
+    assert slurm.partition_cpus() == 4 and slurm.partition_cpus("big") == 100
+    assert slurm.jobs_per_task(10, {}) == 3  # 10 jobs on 4 CPUs: 4 tasks of at most 3
+    assert slurm.jobs_per_task(4, {}) == 1 and slurm.jobs_per_task(3, {}) == 1
+    assert slurm.jobs_per_task(10, {"cpus": 2}) == 5 and slurm.jobs_per_task(10, {"mpi_ranks": 4}) == 10
+    assert slurm.jobs_per_task(250, {"partition": "big"}) == 3
+    assert slurm.jobs_per_task(10, {"jobs_per_task": 1}) == 1
+    assert slurm.jobs_per_task(10, {"partition": "none"}) == 1
+    fake.write_text("#!/bin/sh\nexit 1\n")
+    assert slurm.jobs_per_task(10, {}) == 1
 
 
 @requires_meep
