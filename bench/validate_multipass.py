@@ -61,7 +61,8 @@ def main(parts):
         wave = outcouple.multipass(case, angles=angles, progress=False)
         rays = outcouple.rays(case, rays=200000, lateral="periodic")
         diff = wave["efficiency"] / rays["efficiency"] - 1
-        binned = thick_chip.solve_case(parse_case(case), ray_tops(parse_case(case), angles), angles)["efficiency"]
+        parsed = parse_case(case)
+        binned = thick_chip.solve_case(parsed, ray_tops(parsed, angles), angles)["efficiency"]
         print(f"{name}: the model on ray-optics arrays, {angles} bins: {binned:.4f} "
               f"({100 * (binned / rays['efficiency'] - 1):+.2f}% against rays: the bins' own error)", flush=True)
         print(f"{name}: height {height} µm, {angles} bins: multipass {wave['efficiency']:.4f} "

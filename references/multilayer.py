@@ -271,6 +271,8 @@ def _guided(stack, parts, dim, k0, k_ref, depth, k_radiating):
 
     Returns the power (fraction of the bulk power) and the modes' effective indices by polarisation.
     """
+    from scipy import optimize  # here, not at the top: a third of a second of every start-up
+
     lo, hi = k_radiating, max(_real_k(stack, k0))
     modes = {pol: [] for pol, _ in parts}
     if hi <= lo * (1 + 1e-12):
@@ -291,8 +293,6 @@ def _guided(stack, parts, dim, k0, k_ref, depth, k_radiating):
             with np.errstate(divide="ignore", invalid="ignore"):
                 value = np.imag(1 / g(kappa)[0])
             return float(value) if np.isfinite(value) else 0.0
-
-        from scipy import optimize  # here, not at the top: a third of a second of every start-up
 
         h = np.imag(g(x))
         # Im g changes sign through infinity at a pole and through zero elsewhere; Im(1/g) is zero
